@@ -1,0 +1,67 @@
+"""The fields of an op-amp parameter set: names, kinds, units and meaning.
+
+This is the one contract shared by the store, import/export, the tables and the
+checks. Column names carry their SI unit where it helps (``gbw_hz``). A technical
+field left empty is unknown (NULL); checks report it as "unknown", never as a pass.
+Light module: no numpy, pandas or SQLAlchemy import here (it is on the --help path).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Literal
+
+from picker.quantities import Kind
+
+Group = Literal["identity", "supply", "dynamics", "input", "output", "noise", "stock"]
+
+
+@dataclass(frozen=True)
+class Field:
+    name: str
+    kind: Kind | Literal["text"]
+    header: str  # short table header, unit included
+    help: str
+    group: Group
+    signed: bool = False  # may be negative (headroom beyond a rail)
+    positive: bool = False  # must be > 0 when given
+
+
+FIELDS: tuple[Field, ...] = (
+    Field("label", "text", "label", "the team's own name for this parameter set (unique key)", "identity"),
+    Field("description", "text", "description", "free text", "identity"),
+    Field("tech", "text", "input", "input technology: bipolar, JFET, CMOS, ...", "identity"),
+    Field("channels", "count", "ch", "op-amps per package", "identity", positive=True),
+    Field("package", "text", "package", "package outline, free text", "identity"),
+    Field("supply_min_v", "voltage", "Vs min [V]", "lowest total supply span (V+ - V-)", "supply", positive=True),
+    Field("supply_max_v", "voltage", "Vs max [V]", "highest total supply span (V+ - V-)", "supply", positive=True),
+    Field("iq_a", "current", "Iq [A]", "supply current per channel", "supply"),
+    Field("gbw_hz", "frequency", "GBW [Hz]", "gain-bandwidth product", "dynamics", positive=True),
+    Field("slew_v_per_s", "slew", "SR [V/µs]", "slew rate", "dynamics", positive=True),
+    Field("aol_v_per_v", "gain", "Aol [dB]", "open-loop DC gain", "dynamics", positive=True),
+    Field("rin_ohm", "resistance", "Rin [Ω]", "differential input resistance", "input", positive=True),
+    Field("ib_a", "current", "Ib [A]", "input bias current (magnitude)", "input"),
+    Field("ios_a", "current", "Ios [A]", "input offset current (magnitude)", "input"),
+    Field("vos_v", "voltage", "Vos [V]", "input offset voltage, maximum", "input"),
+    Field("drift_v_per_c", "drift", "drift [V/°C]", "input offset voltage drift", "input"),
+    Field("cm_head_pos_v", "voltage", "CM head+ [V]", "input common-mode headroom below V+ (negative: beyond the rail)", "input", signed=True),
+    Field("cm_head_neg_v", "voltage", "CM head- [V]", "input common-mode headroom above V- (negative: beyond the rail)", "input", signed=True),
+    Field("rout_ohm", "resistance", "Ro [Ω]", "open-loop output resistance", "output"),
+    Field("iout_a", "current", "Iout [A]", "output current limit", "output", positive=True),
+    Field("out_head_pos_v", "voltage", "out head+ [V]", "output headroom below V+ at the limit", "output", signed=True),
+    Field("out_head_neg_v", "voltage", "out head- [V]", "output headroom above V- at the limit", "output", signed=True),
+    Field("en_v_per_rthz", "vnoise", "en [V/√Hz]", "input voltage noise density (white)", "noise"),
+    Field("in_a_per_rthz", "inoise", "in [A/√Hz]", "input current noise density (white)", "noise"),
+    Field("price", "price", "price", "unit price, in the team's currency", "stock"),
+    Field("qty", "count", "qty", "packages on hand", "stock"),
+    Field("location", "text", "location", "drawer or bin", "stock"),
+    Field("notes", "text", "notes", "free text", "stock"),
+)
+
+BY_NAME: dict[str, Field] = {f.name: f for f in FIELDS}
+NUMERIC: tuple[str, ...] = tuple(f.name for f in FIELDS if f.kind != "text")
+TEXT: tuple[str, ...] = tuple(f.name for f in FIELDS if f.kind == "text")
+# Fields every row must have; everything else may be unknown.
+REQUIRED: tuple[str, ...] = ("label",)
+# Columns of the parts table that are not user fields.
+EXTRA_COLUMNS: tuple[str, ...] = ("updated_at",)

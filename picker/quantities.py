@@ -1,0 +1,370 @@
+"""Parse and format engineering values as engineers write them.
+
+Everything inside picker is in SI base units (Ω, Hz, V/s, V/V, V, A, V/√Hz, A/√Hz),
+with two exceptions kept on purpose: temperatures are in °C and money is a plain
+number. Conversion happens only here, at the edges.
+
+SI prefixes are read by quantiphy (BIPM SI Brochure, 9th ed., table 7); this module
+adds only the trade's own forms: ``meg``, IEC 60062 letter-and-digit codes (4k7, 4R7),
+V/µs, dB and V/mV gains, noise densities per root hertz, percentages, °C, signal
+amplitudes with their form (pk, pp, rms) and supply rails (±12, +5/0).
+
+A bare number is in the SI base unit of its kind (a bare slew of 1 is 1 V/s), except
+an amplitude, where a bare number is a peak voltage.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass
+from typing import Literal
+
+from quantiphy import InvalidNumber, Quantity
+
+from picker.errors import BadValue
+
+Kind = Literal[
+    "resistance",
+    "frequency",
+    "slew",
+    "gain",
+    "voltage",
+    "current",
+    "vnoise",
+    "inoise",
+    "ratio",
+    "temperature",
+    "drift",
+    "price",
+    "count",
+    "time",
+    "amplitude",
+]
+
+KINDS: tuple[Kind, ...] = (
+    "resistance",
+    "frequency",
+    "slew",
+    "gain",
+    "voltage",
+    "current",
+    "vnoise",
+    "inoise",
+    "ratio",
+    "temperature",
+    "drift",
+    "price",
+    "count",
+    "time",
+    "amplitude",
+)
+
+
+@dataclass(frozen=True)
+class _Unit:
+    text: str  # as written (matched case-insensitively)
+    scale: float  # multiply the prefixed number by this to get SI
+    prefix_ok: bool = True
+
+
+_ROOT_HZ = ("rtHz", "√Hz", "sqrtHz", "sqrt(Hz)", "rHz", "/√Hz")
+
+_UNITS: dict[str, list[_Unit]] = {
+    "resistance": [_Unit("Ω", 1), _Unit("ohm", 1), _Unit("ohms", 1), _Unit("Ohm", 1)],
+    "frequency": [_Unit("Hz", 1)],
+    "slew": [
+        _Unit("V/s", 1),
+        _Unit("V/ms", 1e3),
+        _Unit("V/us", 1e6),
+        _Unit("V/µs", 1e6),
+        _Unit("V/μs", 1e6),
+        _Unit("V/ns", 1e9),
+    ],
+    "gain": [
+        _Unit("V/V", 1),
+        _Unit("V/mV", 1e3),
+        _Unit("V/uV", 1e6),
+        _Unit("V/µV", 1e6),
+        _Unit("dB", 1, prefix_ok=False),
+    ],
+    "voltage": [_Unit("V", 1)],
+    "current": [_Unit("A", 1)],
+    "vnoise": [_Unit(f"V/{r}", 1) for r in _ROOT_HZ if not r.startswith("/")],
+    "inoise": [_Unit(f"A/{r}", 1) for r in _ROOT_HZ if not r.startswith("/")],
+    "ratio": [_Unit("%", 0.01, prefix_ok=False), _Unit("ppm", 1e-6, prefix_ok=False)],
+    "temperature": [
+        _Unit("C", 1, prefix_ok=False),
+        _Unit("°C", 1, prefix_ok=False),
+        _Unit("degC", 1, prefix_ok=False),
+        _Unit("K", 1, prefix_ok=False),  # converted below
+    ],
+    "drift": [_Unit(f"V/{t}", 1) for t in ("C", "°C", "K", "degC")],
+    "price": [],
+    "count": [],
+    "time": [_Unit("s", 1)],
+    "amplitude": [
+        _Unit("Vpk", 1),
+        _Unit("Vp", 1),
+        _Unit("V", 1),
+        _Unit("Vpp", 0.5),
+        _Unit("Vp-p", 0.5),
+        _Unit("Vrms", math.sqrt(2)),
+    ],
+}
+
+_WHAT: dict[str, str] = {
+    "resistance": "a resistance in Ω (e.g. 4k7, 4.7kΩ, 10meg, 4R7)",
+    "frequency": "a frequency in Hz (e.g. 20kHz, 1.5MHz)",
+    "slew": "a slew rate (e.g. 0.5V/us, 13 V/µs)",
+    "gain": "a gain in V/V, dB or V/mV (e.g. 10, 100dB, 200V/mV)",
+    "voltage": "a voltage (e.g. 1.5V, 300mV)",
+    "current": "a current (e.g. 20mA, 5nA)",
+    "vnoise": "a voltage noise density (e.g. 18nV/rtHz, 18 nV/√Hz)",
+    "inoise": "a current noise density (e.g. 0.8pA/rtHz)",
+    "ratio": "a ratio or percentage (e.g. 1%, 0.01, 50ppm)",
+    "temperature": "a temperature (e.g. 85C, -40 °C)",
+    "drift": "an offset drift (e.g. 2uV/C)",
+    "price": "a price (a plain number, e.g. 0.42)",
+    "count": "a whole number (e.g. 25)",
+    "time": "a time (e.g. 10ms)",
+    "amplitude": "an amplitude with its form (e.g. 3Vpk, 6Vpp, 2.12Vrms; bare = peak)",
+}
+
+_NUM = r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?"
+_PREFIX = r"(?:meg|MEG|Meg|[TGMkKmunpfaµμ])"
+_IEC_CODE = re.compile(r"^(\d*)([RrkKMGm])(\d*)$")
+_IEC_SCALE = {"R": 1.0, "r": 1.0, "k": 1e3, "K": 1e3, "M": 1e6, "G": 1e9, "m": 1e-3}
+
+# Kinds whose values may be negative (headroom into a rail, a rail, a temperature).
+_SIGNED: frozenset[str] = frozenset({"voltage", "temperature"})
+
+
+def _regex(kind: str, with_prefix: bool) -> re.Pattern[str]:
+    units = sorted(_UNITS[kind], key=lambda u: -len(u.text))
+    alts = "|".join(re.escape(u.text) for u in units)
+    unit = f"(?P<unit>(?i:{alts}))" if alts else "(?P<unit>)"
+    if with_prefix:
+        return re.compile(rf"^\s*(?P<num>{_NUM})\s*(?P<prefix>{_PREFIX})?\s*{unit}?\s*$")
+    return re.compile(rf"^\s*(?P<num>{_NUM})\s*{unit}\s*$")
+
+
+# A unit read without a prefix wins over a prefix read without a unit ("5K" is
+# 5 kelvin as a temperature but 5 kΩ as a resistance; "1 A" is an ampere, not atto).
+_PATTERNS = {k: (_regex(k, False), _regex(k, True)) for k in _UNITS}
+
+
+def _prefixed(num: str, prefix: str | None) -> float:
+    """The number times its SI prefix, read by quantiphy (BIPM SI Brochure table 7)."""
+    if not prefix:
+        return float(num)
+    p = {"meg": "M", "MEG": "M", "Meg": "M", "K": "k", "μ": "µ"}.get(prefix, prefix)
+    return float(Quantity(f"{num}{p}").real)
+
+
+def _match(text: str, kind: str) -> float | None:
+    bare, prefixed = _PATTERNS[kind]
+    m = bare.match(text) if _UNITS[kind] else None
+    prefix = None
+    if m is None:
+        m = prefixed.match(text)
+        if m is None:
+            if kind == "resistance":
+                code = _IEC_CODE.match(text.strip().rstrip("Ωω").strip())
+                if code and (code.group(1) or code.group(3)):
+                    whole = code.group(1) or "0"
+                    frac = code.group(3) or "0"
+                    return float(f"{whole}.{frac}") * _IEC_SCALE[code.group(2)]
+            return None
+        prefix = m.group("prefix")
+    unit_text = m.group("unit")
+    unit = None
+    if unit_text:
+        for u in _UNITS[kind]:
+            if u.text.lower() == unit_text.lower():
+                unit = u
+                break
+    if unit is not None and not unit.prefix_ok and prefix:
+        return None
+    if prefix and kind in ("price", "count", "ratio", "temperature"):
+        return None
+    value = _prefixed(m.group("num"), prefix)
+    if unit is None:
+        return value
+    if kind == "gain" and unit.text == "dB":
+        return float(10 ** (value / 20))
+    if kind == "temperature" and unit.text == "K":
+        return value - 273.15
+    return value * unit.scale
+
+
+def _guess_kind(text: str, not_kind: str) -> str | None:
+    for k in _UNITS:
+        if k in (not_kind, "price", "count", "amplitude") or not _UNITS[k]:
+            continue
+        m = _PATTERNS[k][1].match(text)
+        if m is not None and m.group("unit"):
+            return k
+    return None
+
+
+def parse(
+    text: str | float | int,
+    kind: Kind,
+    field: str = "value",
+    *,
+    allow_negative: bool | None = None,
+    allow_zero: bool = True,
+) -> float:
+    """Read one value of the given kind and return it in SI base units.
+
+    Raises BadValue naming the field, the value and what was expected.
+    """
+    if kind == "amplitude":
+        v = parse_amplitude(text, field)
+        return v
+    if isinstance(text, bool):
+        raise BadValue(field, text, f"is not {_WHAT[kind]}")
+    if isinstance(text, int | float):
+        value = float(text)
+        shown: object = text
+    else:
+        shown = text
+        if len(text) > 200:
+            raise BadValue(field, text[:20] + "...", f"is too long to be {_WHAT[kind]}")
+        got = _match(text, kind)
+        if got is None:
+            other = _guess_kind(text, kind)
+            if other is not None:
+                raise BadValue(
+                    field, text, f"is {_WHAT[other].split(' (')[0]}, but {_WHAT[kind]} is expected"
+                )
+            raise BadValue(field, text, f"is not {_WHAT[kind]}")
+        value = got
+    if not math.isfinite(value):
+        raise BadValue(field, shown, f"is not a finite number; expected {_WHAT[kind]}")
+    signed = kind in _SIGNED if allow_negative is None else allow_negative
+    if value < 0 and not signed:
+        raise BadValue(field, shown, f"is negative; expected {_WHAT[kind]} >= 0")
+    if value == 0 and not allow_zero:
+        raise BadValue(field, shown, f"is zero; expected {_WHAT[kind]} > 0")
+    if kind == "count":
+        if value != int(value):
+            raise BadValue(field, shown, f"is not {_WHAT[kind]}")
+        return float(int(value))
+    if kind == "temperature" and value < -273.15:
+        raise BadValue(field, shown, "is below absolute zero")
+    return value
+
+
+def parse_amplitude(text: str | float | int, field: str = "amplitude") -> float:
+    """Read a signal amplitude ('3Vpk', '6Vpp', '2.12Vrms', bare = peak); return the peak."""
+    if isinstance(text, int | float) and not isinstance(text, bool):
+        value = float(text)
+    else:
+        got = _match(str(text), "amplitude")
+        if got is None:
+            raise BadValue(field, text, f"is not {_WHAT['amplitude']}")
+        value = got
+    if not math.isfinite(value) or value <= 0:
+        raise BadValue(field, text, "must be a finite amplitude above zero")
+    return value
+
+
+_RAIL = re.compile(
+    rf"^\s*(?:(?P<pm>±|\+-|\+/-)\s*(?P<sym>{_NUM})\s*V?"
+    rf"|(?P<pos>{_NUM})\s*V?\s*/\s*(?P<neg>{_NUM})\s*V?"
+    rf"|(?P<single>{_NUM})\s*V?)\s*$",
+    re.IGNORECASE,
+)
+
+
+def parse_rails(text: str, field: str = "rails") -> tuple[float, float]:
+    """Read supply rails: '±12', '+12/-12', '+5/0', '5' (single supply 0..5 V).
+
+    Returns (positive rail, negative rail) in volts, positive above negative.
+    """
+    m = _RAIL.match(str(text))
+    if m is None:
+        raise BadValue(field, text, "is not a pair of rails; write ±12, +12/-12, +5/0 or 5")
+    if m.group("sym") is not None:
+        v = float(m.group("sym"))
+        pos, neg = abs(v), -abs(v)
+    elif m.group("pos") is not None:
+        pos, neg = float(m.group("pos")), float(m.group("neg"))
+    else:
+        v = float(m.group("single"))
+        pos, neg = (v, 0.0) if v >= 0 else (0.0, v)
+    if not (math.isfinite(pos) and math.isfinite(neg)):
+        raise BadValue(field, text, "is not a finite pair of rails")
+    if pos <= neg:
+        raise BadValue(field, text, "needs the positive rail above the negative; e.g. +12/-12")
+    if pos - neg > 2000:
+        raise BadValue(field, text, "spans more than 2 kV; no op-amp stage runs on that")
+    return pos, neg
+
+
+def _sig(x: float, prec: int) -> str:
+    import numpy as np
+
+    return np.format_float_positional(x, precision=prec, unique=False, fractional=False, trim="-")
+
+
+def fmt(value: float | int | None, kind: Kind, prec: int = 3) -> str:
+    """Format an SI value for people: '1.9 V/µs', '2.2 kΩ', '1 MHz', '100 dB'."""
+    if value is None or (isinstance(value, float) and math.isnan(value)):
+        return "-"
+    v = float(value)
+    if math.isinf(v):
+        return "∞" if v > 0 else "-∞"
+    if kind == "slew":
+        return f"{_sig(v / 1e6, prec)} V/µs"
+    if kind == "gain":
+        if v <= 0:
+            return f"{_sig(v, prec)} V/V"
+        return f"{_sig(20 * math.log10(v), prec + 1)} dB"
+    if kind == "ratio":
+        return f"{_sig(v * 100, prec)}%"
+    if kind == "temperature":
+        return f"{_sig(v, prec)} °C"
+    if kind == "price":
+        return f"{v:.2f}"
+    if kind == "count":
+        return str(int(v))
+    unit = {
+        "resistance": "Ω",
+        "frequency": "Hz",
+        "voltage": "V",
+        "current": "A",
+        "vnoise": "V/√Hz",
+        "inoise": "A/√Hz",
+        "drift": "V/°C",
+        "time": "s",
+        "amplitude": "Vpk",
+    }[kind]
+    text = str(Quantity(v, unit).render(prec=prec - 1 if prec > 1 else 0))
+    number, _, rest = text.partition(" ")
+    if rest.startswith("u"):  # quantiphy writes micro as 'u'; people read µ
+        rest = "µ" + rest[1:]
+    return f"{number} {rest}" if rest else number
+
+
+def si(value: float, kind: Kind) -> str:
+    """Format with full precision (used where the text must read back exactly)."""
+    return repr(float(value))
+
+
+def as_number(text: str, field: str) -> float:
+    """A plain number (no unit): used for unit-free settings like margins."""
+    try:
+        v = float(text)
+    except (TypeError, ValueError):
+        raise BadValue(field, text, "is not a number") from None
+    if not math.isfinite(v):
+        raise BadValue(field, text, "is not a finite number")
+    return v
+
+
+__all__ = ["KINDS", "Kind", "fmt", "parse", "parse_amplitude", "parse_rails", "as_number"]
+
+_ = InvalidNumber  # re-exported for callers that want quantiphy's own error
