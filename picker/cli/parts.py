@@ -1,0 +1,212 @@
+"""`picker parts ...`: the op-amp parameter sets in the stockroom."""
+
+from __future__ import annotations
+
+import re
+import sys
+from pathlib import Path
+from typing import Any
+
+import click
+
+from picker.cli.params import db_option, format_option, open_store
+from picker.errors import BadValue
+
+_WHERE = re.compile(r"^\s*([A-Za-z_]+)\s*(>=|<=|!=|=|>|<|~)\s*(.+?)\s*$")
+
+
+def _condition(text: str) -> Any:
+    from picker.fields import BY_NAME
+    from picker.quantities import parse
+    from picker.store import Condition
+    from picker.store.records import field_name
+
+    m = _WHERE.match(text)
+    if m is None:
+        raise BadValue("--where", text, "is not FIELD OP VALUE; e.g. 'slew>=1V/us' or 'tech~cmos'")
+    name = field_name(m.group(1), "--where")
+    op, raw = m.group(2), m.group(3)
+    kind = BY_NAME[name].kind
+    if kind == "text" or op == "~":
+        if kind != "text":
+            raise BadValue("--where", text, f"uses '~' on {name}, a number; use >=, <=, = ...")
+        return Condition(name, "~" if op == "~" else op, raw)
+    value = parse(raw, kind, f"--where {name}", allow_negative=True)  # type: ignore[arg-type]
+    return Condition(name, op, value)
+
+
+def _assignments(pairs: tuple[str, ...], where: str) -> dict[str, str]:
+    from picker.store.records import field_name
+
+    out: dict[str, str] = {}
+    for pair in pairs:
+        if "=" not in pair:
+            raise BadValue(where, pair, "is not FIELD=VALUE; e.g. gbw=1MHz slew=0.5V/us qty=10")
+        key, value = pair.split("=", 1)
+        out[field_name(key, where)] = value
+    return out
+
+
+@click.group()
+def parts() -> None:
+    """List, show, add, edit, remove, import and export op-amp parameter sets."""
+
+
+@parts.command("list")
+@click.option("--where", "wheres", multiple=True, metavar="COND",
+              help="filter FIELD OP VALUE, OP one of >= <= > < = != ~ (text contains); "
+              "repeat to combine, e.g. --where 'slew>=1V/us' --where 'tech~cmos'")
+@click.option("--in-stock", is_flag=True, help="only parts with at least one package on hand")
+@click.option("--columns", metavar="F1,F2", help="fields to show (default: a useful set)")
+@format_option
+@db_option
+def list_(wheres: tuple[str, ...], in_stock: bool, columns: str | None, fmt: str,
+          db: str | None) -> None:
+    """List the parts, optionally filtered. Unknown values never match a filter."""
+    from picker.report.tables import LIST_COLUMNS, table, to_json
+    from picker.store.records import field_name
+
+    conditions = [_condition(w) for w in wheres]
+    cols = (
+        [field_name(c, "--columns") for c in columns.split(",") if c.strip()]
+        if columns else list(LIST_COLUMNS)
+    )
+    if "label" not in cols:
+        cols.insert(0, "label")
+    store = open_store(db)
+    frame = store.parts_frame(None if fmt == "json" else cols, conditions,
+                              min_qty=1 if in_stock else None)
+    rows = frame.reset_index().to_dict("records")
+    if fmt == "json":
+        from picker.fields import FIELDS
+
+        names = [f.name for f in FIELDS]
+        click.echo(to_json([{k: r.get(k) for k in names} for r in rows]))
+    elif fmt == "csv":
+        from picker.store.csvio import write_csv
+
+        write_csv(rows, sys.stdout)
+    else:
+        click.echo(table(rows, cols))
+        click.echo(f"{len(rows)} part(s)", err=True)
+
+
+@parts.command()
+@click.argument("label")
+@click.option("--json", "as_json", is_flag=True, help="JSON in SI units")
+@db_option
+def show(label: str, as_json: bool, db: str | None) -> None:
+    """Show every field of one part in engineering units."""
+    from picker.report.tables import card, to_json
+
+    row = open_store(db).get(label)
+    click.echo(to_json(row) if as_json else card(row))
+
+
+@parts.command()
+def fields() -> None:
+    """The part fields: name, short name, unit and meaning."""
+    from tabulate import tabulate
+
+    from picker.fields import FIELDS
+    from picker.store.records import ALIASES
+
+    short = {v: k for k, v in ALIASES.items() if k != v and len(k) < len(v)}
+    click.echo(tabulate(
+        [[f.name, short.get(f.name, ""), f.header, f.help] for f in FIELDS],
+        headers=["field", "short", "header", "meaning"], disable_numparse=True,
+    ))
+
+
+@parts.command()
+@click.argument("label")
+@click.argument("values", nargs=-1, metavar="[FIELD=VALUE]...")
+@db_option
+def add(label: str, values: tuple[str, ...], db: str | None) -> None:
+    """Add a part: picker parts add LABEL gbw=1MHz slew=0.5V/us aol=100dB qty=10."""
+    from picker.store.records import record
+
+    raw = _assignments(values, "add")
+    raw["label"] = label
+    store = open_store(db)
+    store.add(record(raw))
+    click.echo(f"added {label}")
+
+
+@parts.command()
+@click.argument("label")
+@click.argument("values", nargs=-1, required=True, metavar="FIELD=VALUE...")
+@db_option
+def edit(label: str, values: tuple[str, ...], db: str | None) -> None:
+    """Change fields of a part; FIELD= (empty) makes a value unknown."""
+    from picker.store.records import check_consistency, record
+
+    store = open_store(db)
+    before = store.get(label)
+    changes = record(_assignments(values, "edit"))
+    check_consistency({**before, **changes})
+    store.edit(label, changes)
+    click.echo(f"changed {label}: {', '.join(changes)}")
+
+
+@parts.command()
+@click.argument("label")
+@click.option("--yes", is_flag=True, help="do not ask for confirmation")
+@db_option
+def remove(label: str, yes: bool, db: str | None) -> None:
+    """Remove a part from the stockroom."""
+    store = open_store(db)
+    store.get(label)
+    if not yes:
+        click.confirm(f"remove {label} from the stockroom?", abort=True)
+    store.remove(label)
+    click.echo(f"removed {label}")
+
+
+@parts.command("import")
+@click.argument("file", type=click.Path(dir_okay=False, path_type=Path))
+@click.option("--update", is_flag=True, help="overwrite parts whose label already exists")
+@click.option("--dry-run", is_flag=True, help="check every row and report, write nothing")
+@db_option
+def import_(file: Path, update: bool, dry_run: bool, db: str | None) -> None:
+    """Import parts from a CSV file: all rows or none.
+
+    Every cell is checked first; any bad cell is reported as `row N, column X: problem`
+    and nothing is written.
+    """
+    from picker.store.csvio import parse_csv, read_text
+
+    records = parse_csv(read_text(file), str(file))
+    store = open_store(db)
+    if len(records) > 5_000 and sys.stderr.isatty():
+        with click.progressbar(length=len(records), label="importing", file=sys.stderr) as bar:
+            report = store.import_records(records, update=update, dry_run=dry_run,
+                                          progress=bar.update)
+    else:
+        report = store.import_records(records, update=update, dry_run=dry_run)
+    verb = "would add" if dry_run else "added"
+    click.echo(f"{verb} {report.added} and {'would update' if dry_run else 'updated'} "
+               f"{report.updated} part(s) from {file}")
+
+
+@parts.command()
+@click.argument("file", type=click.Path(dir_okay=False, allow_dash=True), default="-")
+@db_option
+def export(file: str, db: str | None) -> None:
+    """Export every part as CSV (to FILE, or stdout); it imports back identically."""
+    from picker.store.csvio import write_csv
+
+    rows = open_store(db).export_rows()
+    if file == "-":
+        write_csv(rows, sys.stdout)
+        return
+    path = Path(file)
+    tmp = path.with_name(path.name + ".part")
+    try:
+        with tmp.open("w", encoding="utf-8", newline="") as out:
+            n = write_csv(rows, out)
+        tmp.replace(path)
+    except OSError as exc:
+        tmp.unlink(missing_ok=True)
+        raise BadValue("FILE", file, f"cannot be written ({exc.strerror})") from None
+    click.echo(f"exported {n} part(s) to {file}", err=True)

@@ -1,0 +1,1 @@
+"""Rendering: tables, JSON, CSV, plots and notes. No physics and no SQL here."""

@@ -1,0 +1,90 @@
+"""Schema versions: alembic migrations run from code, and the version guard.
+
+Every command that opens a stockroom checks its schema revision against the one
+this code was written for (a cheap query, no alembic import); ``picker db upgrade``
+(and ``picker init``) run the migrations.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import TYPE_CHECKING
+
+from picker.errors import StoreError
+
+if TYPE_CHECKING:
+    from sqlalchemy.engine import Connection, Engine
+
+# The newest migration this code knows; tests check it equals alembic's head.
+HEAD = "0001"
+# Every revision in order; a database at one of the earlier ones can be upgraded.
+REVISIONS = ("0001",)
+
+MIGRATIONS = Path(__file__).with_name("migrations")
+
+
+def _config(connection: Connection):  # type: ignore[no-untyped-def]
+    from alembic.config import Config
+
+    cfg = Config()
+    cfg.set_main_option("script_location", str(MIGRATIONS))
+    cfg.attributes["connection"] = connection
+    return cfg
+
+
+def upgrade(engine: Engine, revision: str = "head") -> None:
+    """Bring the database to ``revision`` in one transaction per step."""
+    from alembic import command
+
+    with engine.begin() as conn:
+        command.upgrade(_config(conn), revision)
+
+
+def current(engine: Engine) -> str | None:
+    """The database's schema revision, or None for an empty database."""
+    from sqlalchemy import inspect, text
+
+    with engine.connect() as conn:
+        if not inspect(conn).has_table("alembic_version"):
+            return None
+        row = conn.execute(text("SELECT version_num FROM alembic_version")).first()
+    return None if row is None else str(row[0])
+
+
+def script_head() -> str:
+    """The head revision as alembic reads it from the migration scripts."""
+    from alembic.script import ScriptDirectory
+
+    from alembic.config import Config
+
+    cfg = Config()
+    cfg.set_main_option("script_location", str(MIGRATIONS))
+    head = ScriptDirectory.from_config(cfg).get_current_head()
+    assert head is not None
+    return head
+
+
+def check(engine: Engine, where: str) -> None:
+    """Refuse a database whose schema is older or newer than this code."""
+    from sqlalchemy.exc import OperationalError, ProgrammingError
+
+    try:
+        rev = current(engine)
+    except (OperationalError, ProgrammingError) as exc:
+        raise StoreError(f"cannot read the stockroom at {where}: {exc.orig}") from None
+    if rev == HEAD:
+        return
+    if rev is None:
+        raise StoreError(
+            f"{where} holds no picker stockroom; create one with `picker init` "
+            "(add --demo for the demonstration parts)"
+        )
+    if rev in REVISIONS:
+        raise StoreError(
+            f"{where} has schema {rev}, this picker needs {HEAD}; "
+            "back it up with `picker db backup FILE`, then run `picker db upgrade`"
+        )
+    raise StoreError(
+        f"{where} has schema {rev}, made by a newer picker than this one ({HEAD}); "
+        "upgrade picker instead of using this version on it"
+    )

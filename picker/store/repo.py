@@ -1,0 +1,388 @@
+"""The repository API: every read and write of op-amp parameter sets goes through here.
+
+Other layers never write SQL. Every multi-row write is one transaction: it either
+lands whole or leaves the database exactly as it was.
+"""
+
+from __future__ import annotations
+
+import hashlib
+from collections.abc import Callable, Iterable, Mapping, Sequence
+from dataclasses import dataclass
+from datetime import UTC, datetime
+from typing import TYPE_CHECKING, Any
+
+from picker.errors import Conflict, NotFound, StoreError
+from picker.fields import FIELDS, NUMERIC
+from picker.store import migrate
+from picker.store.engine import is_sqlite, make_engine, redact, resolve_url
+
+if TYPE_CHECKING:
+    import pandas as pd
+    from sqlalchemy.engine import Connection, Engine
+
+FIELD_NAMES: tuple[str, ...] = tuple(f.name for f in FIELDS)
+CHUNK = 2_000
+
+
+@dataclass(frozen=True)
+class ImportReport:
+    added: int
+    updated: int
+    dry_run: bool
+
+
+@dataclass(frozen=True)
+class Condition:
+    """One list filter: field, operator (>=, <=, >, <, =, !=, ~) and SI value or text."""
+
+    field: str
+    op: str
+    value: float | str
+
+
+def _now() -> datetime:
+    return datetime.now(UTC)
+
+
+class Store:
+    """A stockroom database (SQLite file or PostgreSQL server)."""
+
+    def __init__(self, engine: Engine, url: str) -> None:
+        self.engine = engine
+        self.url = url
+
+    # -- opening ---------------------------------------------------------------
+    @classmethod
+    def open(cls, db: str | None = None, *, check: bool = True) -> Store:
+        """Open an existing stockroom and refuse one of another schema version."""
+        url = resolve_url(db)
+        engine = make_engine(url, must_exist=check)
+        store = cls(engine, url)
+        if check:
+            migrate.check(engine, store.where)
+        return store
+
+    @classmethod
+    def create(cls, db: str | None = None) -> Store:
+        """Create (or upgrade) a stockroom at db."""
+        url = resolve_url(db)
+        store = cls(make_engine(url), url)
+        store.upgrade()
+        return store
+
+    @property
+    def where(self) -> str:
+        if is_sqlite(self.url):
+            return self.url.split("///", 1)[-1] or ":memory:"
+        return redact(self.url)
+
+    def upgrade(self, revision: str = "head") -> None:
+        from sqlalchemy.exc import OperationalError, ProgrammingError
+
+        try:
+            migrate.upgrade(self.engine, revision)
+        except (OperationalError, ProgrammingError) as exc:
+            raise StoreError(
+                f"cannot set up the stockroom at {self.where}: {redact(str(exc.orig))}"
+            ) from None
+
+    def dispose(self) -> None:
+        self.engine.dispose()
+
+    # -- reads -----------------------------------------------------------------
+    def count(self) -> int:
+        from sqlalchemy import func, select
+
+        from picker.store.models import parts
+
+        with self.engine.connect() as conn:
+            return int(conn.execute(select(func.count()).select_from(parts)).scalar_one())
+
+    def parts_frame(
+        self,
+        columns: Sequence[str] | None = None,
+        conditions: Sequence[Condition] = (),
+        min_qty: int | None = None,
+    ) -> pd.DataFrame:
+        """Parts as a DataFrame indexed by label; numeric columns float64, NaN = unknown.
+
+        Only the named columns are read (all fields when None); conditions and a
+        minimum quantity are applied in SQL so fewer rows travel.
+        """
+        import numpy as np
+        import pandas as pd
+        from sqlalchemy import select
+
+        from picker.store.models import parts
+
+        names = list(FIELD_NAMES) + ["updated_at"] if columns is None else list(columns)
+        cols = [parts.c.label] + [parts.c[n] for n in names if n != "label"]
+        stmt = select(*cols)
+        for cond in conditions:
+            stmt = stmt.where(_clause(cond))
+        if min_qty is not None:
+            stmt = stmt.where(parts.c.qty >= min_qty)
+        stmt = stmt.order_by(parts.c.label)
+        with self.engine.connect() as conn:
+            result = conn.execute(stmt)
+            rows = result.fetchall()
+            keys = list(result.keys())
+        frame = pd.DataFrame.from_records(rows, columns=keys)
+        for n in names:
+            if n in NUMERIC:
+                frame[n] = pd.to_numeric(frame[n], errors="coerce").astype(np.float64)
+        return frame.set_index("label")
+
+    def get(self, label: str) -> dict[str, Any]:
+        from sqlalchemy import select
+
+        from picker.store.models import parts
+
+        with self.engine.connect() as conn:
+            row = conn.execute(select(parts).where(parts.c.label == label)).mappings().first()
+        if row is None:
+            raise NotFound(f"part {label!r} is not in the stockroom; `picker parts list` shows them")
+        return {k: row[k] for k in (*FIELD_NAMES, "updated_at")}
+
+    def labels(self) -> list[str]:
+        from sqlalchemy import select
+
+        from picker.store.models import parts
+
+        with self.engine.connect() as conn:
+            return [r[0] for r in conn.execute(select(parts.c.label).order_by(parts.c.label))]
+
+    def export_rows(self) -> list[dict[str, Any]]:
+        from sqlalchemy import select
+
+        from picker.store.models import parts
+
+        cols = [parts.c[n] for n in (*FIELD_NAMES, "updated_at")]
+        with self.engine.connect() as conn:
+            return [dict(r) for r in conn.execute(select(*cols).order_by(parts.c.label)).mappings()]
+
+    def checksum(self) -> str:
+        """SHA-256 over every row of every table, in key order (to prove writes undone)."""
+        from sqlalchemy import MetaData, select
+
+        meta = MetaData()
+        h = hashlib.sha256()
+        with self.engine.connect() as conn:
+            meta.reflect(conn)
+            for name in sorted(meta.tables):
+                table = meta.tables[name]
+                h.update(name.encode())
+                order = list(table.primary_key.columns) or list(table.columns)
+                for row in conn.execute(select(table).order_by(*order)):
+                    h.update(repr(tuple(row)).encode())
+        return h.hexdigest()
+
+    # -- writes ----------------------------------------------------------------
+    def add(self, values: Mapping[str, Any]) -> None:
+        self.import_records([values], update=False)
+
+    def edit(self, label: str, changes: Mapping[str, Any]) -> None:
+        from sqlalchemy import update
+        from sqlalchemy.exc import IntegrityError
+
+        from picker.store.models import parts
+
+        if not changes:
+            raise Conflict(f"nothing to change for {label!r}; give field=value pairs")
+        with self._begin() as conn:
+            try:
+                res = conn.execute(
+                    update(parts)
+                    .where(parts.c.label == label)
+                    .values(**dict(changes), updated_at=_now())
+                )
+            except IntegrityError as exc:
+                raise Conflict(_integrity_message(exc, label)) from None
+            if res.rowcount == 0:
+                raise NotFound(f"part {label!r} is not in the stockroom; nothing changed")
+
+    def remove(self, label: str) -> None:
+        from sqlalchemy import delete
+
+        from picker.store.models import parts
+
+        with self._begin() as conn:
+            if conn.execute(delete(parts).where(parts.c.label == label)).rowcount == 0:
+                raise NotFound(f"part {label!r} is not in the stockroom; nothing removed")
+
+    def import_records(
+        self,
+        records: Iterable[Mapping[str, Any]],
+        *,
+        update: bool,
+        dry_run: bool = False,
+        progress: Callable[[int], None] | None = None,
+    ) -> ImportReport:
+        """Insert (and with update=True overwrite) parts, all or nothing.
+
+        A label that already exists is a Conflict unless update is set.
+        """
+        rows = [dict(r) for r in records]
+        now = _now()
+        for r in rows:
+            r.setdefault("updated_at", now)
+            if r["updated_at"] is None:
+                r["updated_at"] = now
+            if r.get("qty") is None:
+                r["qty"] = 0
+        labels = [r["label"] for r in rows]
+        try:
+            return self._write_records(rows, labels, update, dry_run, progress)
+        except _DryRun:
+            return ImportReport(
+                added=sum(1 for r in rows if r["label"] not in self._existing(labels)),
+                updated=len(self._existing(labels)),
+                dry_run=True,
+            )
+
+    def _existing(self, labels: Sequence[str]) -> set[str]:
+        from sqlalchemy import select
+
+        from picker.store.models import parts
+
+        found: set[str] = set()
+        with self.engine.connect() as conn:
+            for i in range(0, len(labels), 500):
+                chunk = list(labels[i : i + 500])
+                found.update(
+                    x[0] for x in conn.execute(select(parts.c.label).where(parts.c.label.in_(chunk)))
+                )
+        return found
+
+    def _write_records(
+        self,
+        rows: list[dict[str, Any]],
+        labels: list[str],
+        update: bool,
+        dry_run: bool,
+        progress: Callable[[int], None] | None,
+    ) -> ImportReport:
+        from sqlalchemy import bindparam, insert, select
+        from sqlalchemy import update as sql_update
+        from sqlalchemy.exc import IntegrityError
+
+        from picker.store.models import parts
+
+        with self._begin() as conn:
+            existing: set[str] = set()
+            for i in range(0, len(labels), 500):
+                chunk = labels[i : i + 500]
+                existing.update(
+                    x[0] for x in conn.execute(select(parts.c.label).where(parts.c.label.in_(chunk)))
+                )
+            if existing and not update:
+                shown = ", ".join(sorted(existing)[:5])
+                raise Conflict(
+                    f"{len(existing)} label(s) already in the stockroom ({shown}); "
+                    "use --update to overwrite them or rename them"
+                )
+            new = [r for r in rows if r["label"] not in existing]
+            old = [r for r in rows if r["label"] in existing]
+            done = 0
+            try:
+                for i in range(0, len(new), CHUNK):
+                    chunk = [_full(r) for r in new[i : i + CHUNK]]
+                    conn.execute(insert(parts), chunk)
+                    done += len(chunk)
+                    if progress:
+                        progress(len(chunk))
+                if old:
+                    keys = [k for k in old[0] if k != "label"]
+                    stmt = (
+                        sql_update(parts)
+                        .where(parts.c.label == bindparam("b_label"))
+                        .values({k: bindparam(f"b_{k}") for k in keys})
+                    )
+                    for i in range(0, len(old), CHUNK):
+                        chunk = [
+                            {f"b_{k}": v for k, v in _full(r).items() if k == "label" or k in keys}
+                            for r in old[i : i + CHUNK]
+                        ]
+                        conn.execute(stmt, chunk)
+                        if progress:
+                            progress(len(chunk))
+            except IntegrityError as exc:
+                raise Conflict(_integrity_message(exc, "")) from None
+            if dry_run:
+                raise _DryRun
+        return ImportReport(added=len(new), updated=len(old), dry_run=dry_run)
+
+    def _begin(self):  # type: ignore[no-untyped-def]
+        return _Transaction(self)
+
+
+class _DryRun(Exception):
+    """Raised inside a transaction to roll a dry run back."""
+
+
+def _full(r: Mapping[str, Any]) -> dict[str, Any]:
+    out = {n: r.get(n) for n in FIELD_NAMES}
+    out["qty"] = 0 if out["qty"] is None else out["qty"]
+    out["updated_at"] = r.get("updated_at") or _now()
+    return out
+
+
+def _clause(cond: Condition) -> Any:
+    from picker.store.models import parts
+
+    col = parts.c[cond.field]
+    if cond.op == "~":
+        return col.ilike(f"%{cond.value}%")
+    ops: dict[str, Callable[[Any, Any], Any]] = {
+        ">=": lambda c, v: c >= v,
+        "<=": lambda c, v: c <= v,
+        ">": lambda c, v: c > v,
+        "<": lambda c, v: c < v,
+        "=": lambda c, v: c == v,
+        "!=": lambda c, v: c != v,
+    }
+    return ops[cond.op](col, cond.value)
+
+
+def _integrity_message(exc: Exception, label: str) -> str:
+    text = str(getattr(exc, "orig", exc)).lower()
+    if "qty" in text or "ck_parts_qty" in text:
+        return f"{label or 'a part'}: the quantity on hand cannot go below zero; nothing changed"
+    if "unique" in text or "duplicate" in text:
+        return f"{label or 'a label'} is already in the stockroom; choose another label"
+    return f"the stockroom refused the change ({redact(str(getattr(exc, 'orig', exc)))})"
+
+
+class _Transaction:
+    """engine.begin() that turns a busy or locked database into a clear StoreError."""
+
+    def __init__(self, store: Store) -> None:
+        self.store = store
+        self._cm: Any = None
+
+    def __enter__(self) -> Connection:
+        from sqlalchemy.exc import OperationalError
+
+        self._cm = self.store.engine.begin()
+        try:
+            return self._cm.__enter__()  # type: ignore[no-any-return]
+        except OperationalError as exc:
+            raise _busy(self.store, exc) from None
+
+    def __exit__(self, *exc: Any) -> bool:
+        from sqlalchemy.exc import OperationalError
+
+        try:
+            return bool(self._cm.__exit__(*exc))
+        except OperationalError as err:
+            raise _busy(self.store, err) from None
+
+
+def _busy(store: Store, exc: Exception) -> StoreError:
+    text = str(getattr(exc, "orig", exc))
+    if "locked" in text or "busy" in text:
+        return StoreError(
+            f"the stockroom at {store.where} stayed busy for 30 s; try again in a moment"
+        )
+    return StoreError(f"the stockroom at {store.where} failed: {redact(text)}")
