@@ -100,7 +100,7 @@ def _error(message: str) -> None:
     click.echo(f"picker: error: {redact(' '.join(message.split()))}", err=True)
 
 
-@click.group(cls=PickerGroup, context_settings={"help_option_names": ["-h", "--help"]})
+@click.group(name="picker", cls=PickerGroup, context_settings={"help_option_names": ["-h", "--help"]})
 @click.version_option(__version__, prog_name="picker")
 def cli() -> None:
     """Choose op-amps from the team's own stock for an amplifier stage.

@@ -103,7 +103,7 @@ def parse_csv(text: str, source: str) -> list[dict[str, Any]]:
                 where = f"row {rowno}, column {name}"
                 try:
                     rec[name] = _updated(cell, where) if name == "updated_at" else convert(
-                        name, cell, where
+                        name, cell, where, from_csv=True
                     )
                 except PickerError as exc:
                     problems.append(str(exc))

@@ -49,8 +49,12 @@ def escape_text(text: str) -> str:
     return text
 
 
-def convert(name: str, raw: object, where: str) -> object:
-    """One cell to its stored value: None for empty, SI float, int or text."""
+def convert(name: str, raw: object, where: str, *, from_csv: bool = False) -> object:
+    """One cell to its stored value: None for empty, SI float, int or text.
+
+    from_csv: the text came from a CSV file, where a leading apostrophe is the
+    export's formula guard and is removed.
+    """
     f = BY_NAME[name]
     if raw is None:
         return None
@@ -58,7 +62,8 @@ def convert(name: str, raw: object, where: str) -> object:
         return None
     text = str(raw)
     if f.kind == "text":
-        text = unescape_text(text)
+        if from_csv:
+            text = unescape_text(text)
         if len(text) > TEXT_MAX:
             raise BadValue(where, text[:20] + "...", f"is longer than {TEXT_MAX} characters")
         if "\x00" in text:
