@@ -54,6 +54,7 @@ FIELDS: tuple[Field, ...] = (
     Field("in_a_per_rthz", "inoise", "in [A/√Hz]", "input current noise density (white)", "noise"),
     Field("price", "price", "price", "unit price, in the team's currency", "stock"),
     Field("qty", "count", "qty", "packages on hand", "stock"),
+    Field("reorder_level", "count", "reorder at", "reorder when packages on hand fall to this or fewer", "stock"),
     Field("location", "text", "location", "drawer or bin", "stock"),
     Field("notes", "text", "notes", "free text", "stock"),
 )

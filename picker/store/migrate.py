@@ -16,9 +16,9 @@ if TYPE_CHECKING:
     from sqlalchemy.engine import Connection, Engine
 
 # The newest migration this code knows; tests check it equals alembic's head.
-HEAD = "0001"
+HEAD = "0002"
 # Every revision in order; a database at one of the earlier ones can be upgraded.
-REVISIONS = ("0001",)
+REVISIONS = ("0001", "0002")
 
 MIGRATIONS = Path(__file__).with_name("migrations")
 
@@ -34,10 +34,15 @@ def _config(connection: Connection):  # type: ignore[no-untyped-def]
 
 def upgrade(engine: Engine, revision: str = "head") -> None:
     """Bring the database to ``revision`` in one transaction per step."""
+    with engine.begin() as conn:
+        upgrade_on(conn, revision)
+
+
+def upgrade_on(conn: Connection, revision: str = "head") -> None:
+    """Run the migrations on an open connection, inside its current transaction."""
     from alembic import command
 
-    with engine.begin() as conn:
-        command.upgrade(_config(conn), revision)
+    command.upgrade(_config(conn), revision)
 
 
 def current(engine: Engine) -> str | None:

@@ -12,6 +12,8 @@ from sqlalchemy import (
     Column,
     DateTime,
     Float,
+    ForeignKey,
+    Index,
     Integer,
     MetaData,
     String,
@@ -48,4 +50,38 @@ parts = Table(
     metadata,
     *_part_columns(),
     CheckConstraint("qty >= 0", name="ck_parts_qty_not_negative"),
+)
+
+
+# Why a quantity changed; 'import' is reserved for bulk loads that log their stock.
+REASONS: tuple[str, ...] = ("take", "return", "restock", "count", "import")
+
+# One row per change of a quantity on hand (migration 0002). part_id is cleared when
+# the part is removed (ON DELETE SET NULL); part_label keeps the label of that moment.
+movements = Table(
+    "movements",
+    metadata,
+    Column("id", Integer, primary_key=True),
+    Column("at", DateTime(timezone=True), nullable=False),
+    Column("by_user", String(100), nullable=False),
+    Column(
+        "part_id",
+        Integer,
+        ForeignKey("parts.id", name="fk_movements_part_id", ondelete="SET NULL"),
+        nullable=True,
+    ),
+    Column("part_label", String(LABEL_MAX), nullable=False),
+    Column("delta", Integer, nullable=False),
+    Column("qty_after", Integer, nullable=False),
+    Column("project", String(200), nullable=True),
+    Column("reason", String(16), nullable=False),
+    Column("note", Text, nullable=True),
+    CheckConstraint(
+        "reason IN (" + ", ".join(f"'{r}'" for r in REASONS) + ")", name="ck_movements_reason"
+    ),
+    CheckConstraint("delta <> 0 OR reason = 'count'", name="ck_movements_delta"),
+    CheckConstraint("qty_after >= 0", name="ck_movements_qty_after"),
+    Index("ix_movements_part_id", "part_id"),
+    Index("ix_movements_at", "at"),
+    Index("ix_movements_part_label", "part_label"),
 )
