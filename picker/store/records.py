@@ -80,7 +80,14 @@ def convert(name: str, raw: object, where: str, *, from_csv: bool = False) -> ob
         if name == "qty":
             return 0
         return None
-    value = parse(text, f.kind, where, allow_negative=f.signed or None, allow_zero=not f.positive)  # type: ignore[arg-type]
+    try:  # fast path: a plain number in the column's SI unit (what export writes)
+        number: float | str = float(text)
+    except ValueError:
+        number = text
+    else:
+        if not math.isfinite(number):
+            number = text  # let the parser explain it
+    value = parse(number, f.kind, where, allow_negative=f.signed or None, allow_zero=not f.positive)  # type: ignore[arg-type]
     if f.kind == "count":
         if value > 1e9:
             raise BadValue(where, raw, "is more than a stockroom can hold")
