@@ -20,8 +20,6 @@ import re
 from dataclasses import dataclass
 from typing import Literal
 
-from quantiphy import InvalidNumber, Quantity
-
 from picker.errors import BadValue
 
 Kind = Literal[
@@ -158,6 +156,8 @@ def _prefixed(num: str, prefix: str | None) -> float:
     """The number times its SI prefix, read by quantiphy (BIPM SI Brochure table 7)."""
     if not prefix:
         return float(num)
+    from quantiphy import Quantity  # lazy: keeps `picker --help` light
+
     p = {"meg": "M", "MEG": "M", "Meg": "M", "K": "k", "μ": "µ"}.get(prefix, prefix)
     return float(Quantity(f"{num}{p}").real)
 
@@ -342,6 +342,8 @@ def fmt(value: float | int | None, kind: Kind, prec: int = 3) -> str:
         "time": "s",
         "amplitude": "Vpk",
     }[kind]
+    from quantiphy import Quantity
+
     text = str(Quantity(v, unit).render(prec=prec - 1 if prec > 1 else 0))
     number, _, rest = text.partition(" ")
     if rest.startswith("u"):  # quantiphy writes micro as 'u'; people read µ
@@ -366,5 +368,3 @@ def as_number(text: str, field: str) -> float:
 
 
 __all__ = ["KINDS", "Kind", "fmt", "parse", "parse_amplitude", "parse_rails", "as_number"]
-
-_ = InvalidNumber  # re-exported for callers that want quantiphy's own error
