@@ -85,8 +85,14 @@ def make_engine(url: str, *, must_exist: bool = False) -> Engine:
             "give a file path or a URL like postgresql+psycopg://user@host/db"
         ) from None
     except ImportError:
+        if url.startswith("postgresql"):
+            raise StoreError(
+                "--db: PostgreSQL needs psycopg; install it with `pip install 'picker[postgres]'`"
+            ) from None
+        scheme = url.split("://", 1)[0]
         raise StoreError(
-            "--db: PostgreSQL needs psycopg; install it with `pip install 'picker[postgres]'`"
+            f"--db: no database driver for {scheme!r}; picker works with SQLite files and "
+            "postgresql+psycopg:// URLs"
         ) from None
 
     if is_sqlite(url):
