@@ -7,6 +7,8 @@ this code was written for (a cheap query, no alembic import); ``picker db upgrad
 
 from __future__ import annotations
 
+from collections.abc import Iterator
+from contextlib import contextmanager
 from pathlib import Path
 from typing import TYPE_CHECKING
 
@@ -33,9 +35,28 @@ def _config(connection: Connection):  # type: ignore[no-untyped-def]
 
 
 def upgrade(engine: Engine, revision: str = "head") -> None:
-    """Bring the database to ``revision`` in one transaction per step."""
-    with engine.begin() as conn:
+    """Bring the database to ``revision`` in one transaction: every step or none."""
+    with all_or_nothing(engine) as conn:
         upgrade_on(conn, revision)
+
+
+@contextmanager
+def all_or_nothing(engine: Engine) -> Iterator[Connection]:
+    """A transaction that covers schema changes too, committed only if the block ends well.
+
+    pysqlite runs CREATE and ALTER outside any transaction unless one was begun
+    explicitly, so on SQLite this begins one (IMMEDIATE: it takes the write lock
+    up front, waiting up to the busy timeout). PostgreSQL's DDL is transactional.
+    """
+    with engine.connect() as conn:
+        if conn.dialect.name == "sqlite":
+            conn.exec_driver_sql("BEGIN IMMEDIATE")
+        try:
+            yield conn
+        except BaseException:
+            conn.rollback()
+            raise
+        conn.commit()
 
 
 def upgrade_on(conn: Connection, revision: str = "head") -> None:

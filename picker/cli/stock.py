@@ -1,0 +1,154 @@
+"""`picker stock ...`: take, return, restock and count parts; the movement log."""
+
+from __future__ import annotations
+
+import sys
+from collections.abc import Callable
+from typing import Any, TypeVar
+
+import click
+
+from picker.cli.params import db_option, format_option, open_store
+from picker.errors import BadValue
+
+F = TypeVar("F", bound=Callable[..., Any])
+
+_QTY = click.IntRange(min=1)
+
+
+def who(by: str | None) -> str:
+    """--by, or the name of the person logged in to this computer."""
+    if by:
+        return by
+    import getpass
+
+    try:
+        return getpass.getuser()
+    except (OSError, KeyError):  # no user name in the environment or password database
+        raise BadValue("--by", "", "is needed: picker cannot tell who you are; give --by NAME") from None
+
+
+def by_option(f: F) -> F:
+    return click.option(
+        "--by", metavar="NAME", help="who moves the parts (default: your login name)"
+    )(f)
+
+
+def note_option(f: F) -> F:
+    return click.option("--note", metavar="TEXT", help="free text kept in the log")(f)
+
+
+@click.group()
+def stock() -> None:
+    """Take, return, restock and count parts; the movement log and low stock.
+
+    Every change of a quantity is written together with its row in the movement log
+    (when, who, part, change, project, reason), so the log always explains the stock.
+    """
+
+
+@stock.command()
+@click.argument("part")
+@click.argument("qty", type=_QTY)
+@click.option("--for", "project", required=True, metavar="PROJECT",
+              help="the project or board the parts go to")
+@by_option
+@note_option
+@db_option
+def take(part: str, qty: int, project: str, by: str | None, note: str | None,
+         db: str | None) -> None:
+    """Take QTY packages of PART out of the stockroom for a project."""
+    from picker.store import stock as ops
+
+    mv = ops.take(open_store(db), part, qty, project, who(by), note)
+    click.echo(f"took {qty} of {mv.part} for {mv.project}; {mv.qty_after} left")
+
+
+@stock.command("return")
+@click.argument("part")
+@click.argument("qty", type=_QTY)
+@click.option("--for", "project", required=True, metavar="PROJECT",
+              help="the project the parts come back from")
+@by_option
+@note_option
+@db_option
+def return_(part: str, qty: int, project: str, by: str | None, note: str | None,
+            db: str | None) -> None:
+    """Put QTY packages of PART back (no more than the project has out)."""
+    from picker.store import stock as ops
+
+    mv = ops.return_(open_store(db), part, qty, project, who(by), note)
+    click.echo(f"returned {qty} of {mv.part} from {mv.project}; {mv.qty_after} on hand")
+
+
+@stock.command("add")
+@click.argument("part")
+@click.argument("qty", type=_QTY)
+@by_option
+@note_option
+@db_option
+def add(part: str, qty: int, by: str | None, note: str | None, db: str | None) -> None:
+    """Restock: add QTY new packages of PART (a delivery)."""
+    from picker.store import stock as ops
+
+    mv = ops.restock(open_store(db), part, qty, who(by), note)
+    click.echo(f"added {qty} of {mv.part}; {mv.qty_after} on hand")
+
+
+@stock.command()
+@click.argument("part")
+@click.argument("qty", type=click.IntRange(min=0))
+@by_option
+@note_option
+@db_option
+def count(part: str, qty: int, by: str | None, note: str | None, db: str | None) -> None:
+    """Set PART's quantity after a physical count; the log keeps the difference."""
+    from picker.store import stock as ops
+
+    mv = ops.count(open_store(db), part, qty, who(by), note)
+    click.echo(f"counted {mv.qty_after} of {mv.part} ({mv.delta:+d} against the books)")
+
+
+@stock.command()
+@click.argument("part", required=False)
+@click.option("--since", metavar="DATE",
+              help="only movements from this date or time on (2026-01-31, 2026-01-31T14:00; "
+              "local time)")
+@format_option
+@db_option
+def log(part: str | None, since: str | None, fmt: str, db: str | None) -> None:
+    """The movement log, oldest first: every part, or only PART."""
+    from picker.report.stock import log_csv, log_records, log_table
+    from picker.report.tables import to_json
+    from picker.store import stock as ops
+
+    when = ops.parse_since(since) if since is not None else None
+    moves = ops.log(open_store(db), part, when)
+    if fmt == "json":
+        click.echo(to_json(log_records(moves)))
+    elif fmt == "csv":
+        log_csv(moves, sys.stdout)
+    else:
+        click.echo(log_table(moves))
+        click.echo(f"{len(moves)} movement(s)", err=True)
+
+
+@stock.command()
+@click.option("--below", type=click.IntRange(min=0), metavar="N",
+              help="every part with fewer than N on hand, whatever its reorder level")
+@format_option
+@db_option
+def low(below: int | None, fmt: str, db: str | None) -> None:
+    """Parts at or under their reorder level (set one with `parts edit P reorder_level=N`)."""
+    from picker.report.stock import low_csv, low_table
+    from picker.report.tables import to_json
+    from picker.store import stock as ops
+
+    rows = ops.low(open_store(db), below)
+    if fmt == "json":
+        click.echo(to_json(rows))
+    elif fmt == "csv":
+        low_csv(rows, sys.stdout)
+    else:
+        click.echo(low_table(rows))
+        click.echo(f"{len(rows)} part(s) to reorder", err=True)

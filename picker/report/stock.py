@@ -1,0 +1,77 @@
+"""The movement log and the low-stock list for people (table) and programs (JSON, CSV).
+
+Times are stored in UTC; tables show them in the reader's local time, JSON and CSV
+keep ISO 8601 with the UTC offset. CSV text cells carry the same spreadsheet formula
+guard as the parts export (OWASP CSV injection).
+"""
+
+from __future__ import annotations
+
+import csv
+from collections.abc import Iterable, Mapping, Sequence
+from typing import Any
+
+from picker.store.records import escape_text
+from picker.store.stock import Movement
+
+LOG_COLUMNS: tuple[str, ...] = (
+    "at", "by", "part", "delta", "qty_after", "project", "reason", "note",
+)
+_LOG_HEADERS = ("when (local)", "by", "part", "change", "on hand", "project", "reason", "note")
+LOW_COLUMNS: tuple[str, ...] = ("label", "qty", "reorder_level", "location", "description")
+_LOW_HEADERS = ("part", "on hand", "reorder at", "location", "description")
+
+
+def log_table(moves: Sequence[Movement]) -> str:
+    from tabulate import tabulate
+
+    body = [
+        [m.at.astimezone().strftime("%Y-%m-%d %H:%M:%S"), m.by, m.part, f"{m.delta:+d}",
+         str(m.qty_after), m.project or "", m.reason, m.note or ""]
+        for m in moves
+    ]
+    return tabulate(body, headers=list(_LOG_HEADERS), disable_numparse=True)
+
+
+def log_records(moves: Iterable[Movement]) -> list[dict[str, Any]]:
+    """JSON-ready rows: ISO 8601 UTC times, whole-number deltas."""
+    return [{**m.as_dict(), "at": m.at.isoformat()} for m in moves]
+
+
+def log_csv(moves: Iterable[Movement], out: Any) -> int:
+    writer = csv.writer(out, lineterminator="\n")
+    writer.writerow(LOG_COLUMNS)
+    n = 0
+    for m in moves:
+        writer.writerow([
+            m.at.isoformat(), escape_text(m.by), escape_text(m.part), m.delta, m.qty_after,
+            escape_text(m.project or ""), m.reason, escape_text(m.note or ""),
+        ])
+        n += 1
+    return n
+
+
+def low_table(rows: Sequence[Mapping[str, Any]]) -> str:
+    from tabulate import tabulate
+
+    body = [
+        [r["label"], str(r["qty"]),
+         "-" if r["reorder_level"] is None else str(r["reorder_level"]),
+         r["location"] or "", r["description"] or ""]
+        for r in rows
+    ]
+    return tabulate(body, headers=list(_LOW_HEADERS), disable_numparse=True)
+
+
+def low_csv(rows: Iterable[Mapping[str, Any]], out: Any) -> int:
+    writer = csv.writer(out, lineterminator="\n")
+    writer.writerow(LOW_COLUMNS)
+    n = 0
+    for r in rows:
+        writer.writerow([
+            escape_text(r["label"]), r["qty"],
+            "" if r["reorder_level"] is None else r["reorder_level"],
+            escape_text(r["location"] or ""), escape_text(r["description"] or ""),
+        ])
+        n += 1
+    return n
