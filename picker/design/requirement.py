@@ -1,0 +1,448 @@
+"""The stage requirement: what the amplifier stage must do, in SI units.
+
+A requirement is read from command-line options or a TOML design file through the
+same keys (the option names without dashes: ``gain-error`` or ``gain_error``), with
+command-line values overriding the file. Every value goes through picker.quantities,
+so a wrong unit is named where it was written: ``--freq: '10 V' is a voltage, ...``.
+
+Signals ride on the reference level ``ref`` (mid-rail by default): the input, the
+ground leg of the network and the load all return to it, as in split-supply practice
+or a single-supply stage with AC-coupled source and load.
+
+Explicit resistor networks (``network``; values in Ω, or ``inf`` for an open leg):
+
+- inverting: ``rf`` out -> inverting input, ``rg`` from the source (after its
+  own source resistance) -> inverting input, optional ``rp`` non-inverting input -> ref.
+- non-inverting: ``rf`` out -> inverting input, ``rg`` inverting input -> ref,
+  optional ``rp`` in series with the non-inverting input.
+- follower: optional ``rf`` out -> inverting input (default 0), optional ``rp``.
+- difference: ``r1`` negative input -> inverting input, ``r2`` out -> inverting input,
+  ``r3`` positive input -> non-inverting input, ``r4`` non-inverting input -> ref.
+
+Without a network the stage uses an ideal-ratio network built from ``rf`` (see
+picker.design.topology).
+"""
+
+from __future__ import annotations
+
+import math
+import tomllib
+from collections.abc import Callable, Mapping
+from dataclasses import dataclass, field, fields, replace
+from pathlib import Path
+from typing import Any, Literal, get_args
+
+from picker.errors import BadRequirement, BadValue
+from picker.quantities import as_number, parse, parse_amplitude, parse_rails
+
+Topology = Literal["inverting", "non-inverting", "follower", "difference"]
+TOPOLOGIES: tuple[Topology, ...] = get_args(Topology)
+
+#: Extra-low voltage limit for DC (IEC 61140 practice): beyond it, a caution.
+ELV_DC_V = 60.0
+#: The temperature offset drift is specified from.
+T_REF_C = 25.0
+
+NETWORK_NAMES: dict[str, tuple[str, ...]] = {
+    "inverting": ("rf", "rg", "rp"),
+    "non-inverting": ("rf", "rg", "rp"),
+    "follower": ("rf", "rp"),
+    "difference": ("r1", "r2", "r3", "r4"),
+}
+
+# requirement key (as written, dashes) -> dataclass field
+KEYS: dict[str, str] = {
+    "topology": "topology",
+    "gain": "gain",
+    "vin": "vin_pk",
+    "vout": "vout_pk",
+    "freq": "freq_hz",
+    "ref": "ref_v",
+    "load": "load_ohm",
+    "source": "source_ohm",
+    "rails": "rails",
+    "gain-error": "gain_error",
+    "offset-max": "offset_max_v",
+    "noise-max": "noise_max_v",
+    "temp": "temp",
+    "qty": "qty",
+    "margin": "margin",
+    "rf": "rf_ohm",
+    "mains": "mains",
+    "network": "network",
+}
+
+Label = Callable[[str], str]
+
+
+def option_label(key: str) -> str:
+    """How a key is named on the command line: ``--gain-error``."""
+    return f"--{key}"
+
+
+@dataclass(frozen=True)
+class Requirement:
+    """One amplifier stage to build. SI units; temperatures in °C.
+
+    ``gain`` is the signal-gain magnitude in V/V (a follower has 1). Exactly one of
+    ``vin_pk`` and ``vout_pk`` gives the signal's peak amplitude. ``margin`` (>= 1)
+    makes every need stricter: requirements on a part grow by it, allowed errors
+    shrink by it.
+    """
+
+    topology: Topology
+    gain: float
+    rail_pos: float
+    rail_neg: float
+    freq_hz: float
+    vin_pk: float | None = None
+    vout_pk: float | None = None
+    ref_v: float | None = None
+    load_ohm: float | None = None
+    source_ohm: float = 0.0
+    gain_error: float = 0.01
+    offset_max_v: float | None = None
+    noise_max_v: float | None = None
+    temp_min_c: float = T_REF_C
+    temp_max_c: float = T_REF_C
+    qty: int = 1
+    margin: float = 1.25
+    rf_ohm: float = 10e3
+    network: Mapping[str, float] | None = field(default=None, hash=False)
+    mains: bool = False
+
+    def __post_init__(self) -> None:
+        self.validate(option_label)
+
+    # -- derived values -------------------------------------------------------------
+    @property
+    def vout(self) -> float:
+        """Peak output amplitude around the reference, V."""
+        if self.vout_pk is not None:
+            return self.vout_pk
+        assert self.vin_pk is not None
+        return self.vin_pk * self.gain
+
+    @property
+    def vin(self) -> float:
+        """Peak input amplitude around the reference, V (differential for difference)."""
+        if self.vin_pk is not None:
+            return self.vin_pk
+        assert self.vout_pk is not None
+        return self.vout_pk / self.gain
+
+    @property
+    def ref(self) -> float:
+        """The DC level the signal rides on, V (mid-rail when not given)."""
+        return (self.rail_pos + self.rail_neg) / 2 if self.ref_v is None else self.ref_v
+
+    @property
+    def span(self) -> float:
+        """Total supply span V+ - V-, V."""
+        return self.rail_pos - self.rail_neg
+
+    @property
+    def drift_span_c(self) -> float:
+        """Largest distance of the ambient range from 25 °C, where offsets are specified."""
+        return max(abs(self.temp_min_c - T_REF_C), abs(self.temp_max_c - T_REF_C))
+
+    @property
+    def temp_max_k(self) -> float:
+        """Hottest ambient in kelvin (resistor thermal noise is taken there)."""
+        return self.temp_max_c + 273.15
+
+    @property
+    def cautions(self) -> list[str]:
+        """Safety cautions this stage calls for (rendered with every result)."""
+        out = []
+        if self.span > ELV_DC_V:
+            out.append(
+                f"Caution: the rails span {self.span:g} V, beyond the {ELV_DC_V:g} V DC "
+                "extra-low-voltage limit; touchable parts can be hazardous. Follow local "
+                "electrical codes and have the design reviewed under licensed practice."
+            )
+        if self.mains:
+            out.append(
+                "Caution: the input comes from mains. Isolation, creepage and protection "
+                "are beyond what picker checks; follow local electrical codes and licensed "
+                "practice, and do not build it without qualified review."
+            )
+        return out
+
+    def with_changes(self, **changes: Any) -> Requirement:
+        return replace(self, **changes)
+
+    # -- validation -----------------------------------------------------------------
+    def validate(self, label: Label) -> None:
+        """Raise BadRequirement (one line naming the option) if no stage can do this."""
+        t = self.topology
+        if t not in TOPOLOGIES:
+            raise BadRequirement(f"{label('topology')}: {t!r} is not a topology; use one of "
+                                 + ", ".join(TOPOLOGIES))
+        if not (math.isfinite(self.gain) and self.gain > 0):
+            raise BadRequirement(f"{label('gain')}: {self.gain!r} is not a gain above zero")
+        if t == "follower" and not math.isclose(self.gain, 1.0, rel_tol=1e-9):
+            raise BadRequirement(
+                f"{label('gain')}: a follower has gain 1, not {self.gain:g}; "
+                "use --topology non-inverting for gain above 1")
+        if t == "non-inverting" and self.gain < 1:
+            raise BadRequirement(
+                f"{label('gain')}: {self.gain:g} V/V is below 1, which a non-inverting stage "
+                "cannot make; use --topology inverting (or a divider before a follower)")
+        if not (self.freq_hz > 0 and math.isfinite(self.freq_hz)):
+            raise BadRequirement(f"{label('freq')}: {self.freq_hz!r} Hz; the top signal "
+                                 "frequency must be above zero, e.g. --freq 20kHz")
+        if (self.vin_pk is None) == (self.vout_pk is None):
+            which = "both were given" if self.vin_pk is not None else "neither was given"
+            raise BadRequirement(f"{label('vin')}/{label('vout')}: give exactly one signal "
+                                 f"amplitude ({which}), e.g. --vin 0.5Vpk")
+        if not (self.rail_pos > self.rail_neg):
+            raise BadRequirement(f"{label('rails')}: the positive rail must be above the "
+                                 "negative; e.g. --rails ±12")
+        ref = self.ref
+        if not (self.rail_neg <= ref <= self.rail_pos):
+            raise BadRequirement(
+                f"{label('ref')}: {ref:g} V lies outside the rails "
+                f"{self.rail_pos:+g}/{self.rail_neg:+g} V; choose a level between them")
+        out_name = label("vout") if self.vout_pk is not None else label("vin")
+        if ref + self.vout > self.rail_pos or ref - self.vout < self.rail_neg:
+            raise BadRequirement(
+                f"{out_name}: an output of {self.vout:g} Vpk around {ref:g} V goes beyond the "
+                f"rails {self.rail_pos:+g}/{self.rail_neg:+g} V; lower the amplitude or "
+                "widen the rails")
+        if t in ("non-inverting", "follower") and (
+            ref + self.vin > self.rail_pos or ref - self.vin < self.rail_neg
+        ):
+            raise BadRequirement(
+                f"{label('vin')}: an input of {self.vin:g} Vpk around {ref:g} V goes beyond "
+                "the rails; lower the amplitude or widen the rails")
+        if not (0 < self.gain_error < 1):
+            raise BadRequirement(f"{label('gain-error')}: {self.gain_error!r} must lie between "
+                                 "0 and 100%, e.g. --gain-error 1%")
+        if self.load_ohm is not None and not self.load_ohm > 0:
+            raise BadRequirement(f"{label('load')}: a load must be above 0 Ω (omit for none)")
+        if not (self.source_ohm >= 0 and math.isfinite(self.source_ohm)):
+            raise BadRequirement(f"{label('source')}: the source resistance must be >= 0 Ω")
+        if not (self.rf_ohm > 0 and math.isfinite(self.rf_ohm)):
+            raise BadRequirement(f"{label('rf')}: the feedback resistor must be above 0 Ω")
+        for name, v in (("offset-max", self.offset_max_v), ("noise-max", self.noise_max_v)):
+            if v is not None and not v > 0:
+                raise BadRequirement(f"{label(name)}: the limit must be above 0 V")
+        if not (self.margin >= 1 and math.isfinite(self.margin)):
+            raise BadRequirement(f"{label('margin')}: {self.margin!r} is below 1; a margin of "
+                                 "1 gives the bare minimums, 1.25 asks 25% more")
+        if self.qty < 1:
+            raise BadRequirement(f"{label('qty')}: at least one channel is needed")
+        if self.temp_min_c > self.temp_max_c:
+            raise BadRequirement(f"{label('temp')}: write the range low..high, e.g. -40..85C")
+        if self.network is not None:
+            allowed = NETWORK_NAMES[t]
+            for name, value in self.network.items():
+                if name not in allowed:
+                    raise BadRequirement(
+                        f"{label('network')}: {name!r} is not a resistor of the {t} stage; "
+                        f"use {', '.join(allowed)}")
+                if not value > 0 and not (name in ("rf", "rp") and value == 0):
+                    raise BadRequirement(f"{label('network')}: {name} = {value!r} Ω; "
+                                         "resistors must be above 0 Ω")
+            need = {"inverting": ("rf", "rg"), "non-inverting": ("rf", "rg"),
+                    "difference": ("r1", "r2", "r3", "r4"), "follower": ()}[t]
+            missing = [n for n in need if n not in self.network]
+            if missing:
+                raise BadRequirement(f"{label('network')}: the {t} stage needs "
+                                     f"{', '.join(missing)} as well")
+
+    # -- construction from user text ---------------------------------------------------
+    @classmethod
+    def from_mapping(cls, d: Mapping[str, Any], where: str = "--") -> Requirement:
+        """Build from user text (or numbers) under requirement keys.
+
+        ``where`` prefixes each key in error messages: ``"--"`` gives ``--freq: ...``,
+        ``"stage.toml: "`` gives ``stage.toml: freq: ...``.
+        """
+        return _build({normal_key(k, where): (v, where) for k, v in d.items() if v is not None})
+
+
+def normal_key(key: str, where: str = "--") -> str:
+    """'gain_error', '--gain-error' -> 'gain-error'; unknown keys are an error."""
+    k = key.strip().lstrip("-").replace("_", "-").lower()
+    if k not in KEYS:
+        raise BadRequirement(f"{where}{key}: not a requirement key; known keys: "
+                             + ", ".join(KEYS))
+    return k
+
+
+def _temp_range(text: Any, name: str) -> tuple[float, float]:
+    if isinstance(text, list | tuple):
+        if len(text) != 2:
+            raise BadValue(name, text, "needs two temperatures, low and high")
+        lo, hi = (parse(t, "temperature", name) for t in text)
+        return lo, hi
+    if isinstance(text, int | float) and not isinstance(text, bool):
+        v = parse(text, "temperature", name)
+        return v, v
+    s = str(text)
+    if ".." in s:
+        a, b = s.split("..", 1)
+        unit = "".join(ch for ch in b if not (ch.isdigit() or ch in "+-. "))
+        a = a if any(ch.isalpha() for ch in a) else a + unit
+        return parse(a, "temperature", name), parse(b, "temperature", name)
+    v = parse(s, "temperature", name)
+    return v, v
+
+
+def _bool(value: Any, name: str) -> bool:
+    if isinstance(value, bool):
+        return value
+    s = str(value).strip().lower()
+    if s in ("1", "true", "yes", "on"):
+        return True
+    if s in ("0", "false", "no", "off"):
+        return False
+    raise BadValue(name, value, "is not yes or no")
+
+
+def _optional(value: Any) -> bool:
+    return isinstance(value, str) and value.strip().lower() in ("none", "open", "")
+
+
+def _rms_stripped(value: Any) -> Any:
+    if isinstance(value, str) and value.strip().lower().endswith("rms"):
+        return value.strip()[:-3]
+    return value
+
+
+def _network(value: Any, name: str) -> dict[str, float]:
+    if not isinstance(value, Mapping):
+        raise BadValue(name, value, "is not a table of resistors, e.g. {rf = '47k', rg = '4k7'}")
+    out: dict[str, float] = {}
+    for k, v in value.items():
+        key = str(k).lower()
+        if isinstance(v, str) and v.strip().lower() in ("inf", "open"):
+            out[key] = math.inf
+        else:
+            out[key] = parse(v, "resistance", f"{name}.{key}")
+    return out
+
+
+def _build(values: Mapping[str, tuple[Any, str]]) -> Requirement:
+    """Parse every (value, where) under its key and make the requirement."""
+
+    def lab(key: str) -> str:
+        where = values[key][1] if key in values else "--"
+        return f"{where}{key}"
+
+    kw: dict[str, Any] = {}
+    for key, (raw, _) in values.items():
+        name = lab(key)
+        if key == "topology":
+            t = str(raw).strip().lower().replace("_", "-")
+            t = {"noninverting": "non-inverting", "non-inv": "non-inverting",
+                 "inv": "inverting", "buffer": "follower", "diff": "difference"}.get(t, t)
+            if t not in TOPOLOGIES:
+                raise BadValue(name, raw, "is not a topology; use one of " + ", ".join(TOPOLOGIES))
+            kw["topology"] = t
+        elif key == "gain":
+            kw["gain"] = parse(raw, "gain", name, allow_zero=False)
+        elif key in ("vin", "vout"):
+            kw[KEYS[key]] = parse_amplitude(raw, name)
+        elif key == "freq":
+            kw["freq_hz"] = parse(raw, "frequency", name, allow_zero=False)
+        elif key == "ref":
+            kw["ref_v"] = None if _optional(raw) else parse(raw, "voltage", name)
+        elif key == "load":
+            kw["load_ohm"] = None if _optional(raw) else parse(raw, "resistance", name,
+                                                                allow_zero=False)
+        elif key == "source":
+            kw["source_ohm"] = parse(raw, "resistance", name)
+        elif key == "rails":
+            if isinstance(raw, list | tuple):
+                if len(raw) != 2:
+                    raise BadValue(name, raw, "needs two rails, e.g. [12, -12]")
+                a, b = (parse(r, "voltage", name) for r in raw)
+                kw["rail_pos"], kw["rail_neg"] = max(a, b), min(a, b)
+                if a == b:
+                    raise BadValue(name, raw, "needs two different rails")
+            else:
+                kw["rail_pos"], kw["rail_neg"] = parse_rails(str(raw), name)
+        elif key == "gain-error":
+            kw["gain_error"] = parse(raw, "ratio", name, allow_zero=False)
+        elif key in ("offset-max", "noise-max"):
+            kw[KEYS[key]] = None if _optional(raw) else parse(
+                _rms_stripped(raw), "voltage", name, allow_negative=False, allow_zero=False)
+        elif key == "temp":
+            kw["temp_min_c"], kw["temp_max_c"] = _temp_range(raw, name)
+        elif key == "qty":
+            kw["qty"] = int(parse(raw, "count", name, allow_zero=False))
+        elif key == "margin":
+            kw["margin"] = raw if isinstance(raw, float) else as_number(str(raw), name)
+        elif key == "rf":
+            kw["rf_ohm"] = parse(raw, "resistance", name, allow_zero=False)
+        elif key == "mains":
+            kw["mains"] = _bool(raw, name)
+        elif key == "network":
+            kw["network"] = _network(raw, name)
+    if "rail_pos" not in kw:
+        raise BadRequirement(f"{lab('rails')}: missing; give the supply rails, e.g. --rails ±12 "
+                             "or --rails +5/0")
+    if "topology" not in kw:
+        raise BadRequirement(f"{lab('topology')}: missing; use one of " + ", ".join(TOPOLOGIES))
+    if "gain" not in kw:
+        if kw["topology"] != "follower":
+            raise BadRequirement(f"{lab('gain')}: missing; give the signal gain, e.g. --gain 10 "
+                                 "or --gain 20dB")
+        kw["gain"] = 1.0
+    if "freq_hz" not in kw:
+        raise BadRequirement(f"{lab('freq')}: missing; give the top signal frequency, "
+                             "e.g. --freq 20kHz")
+    # built without __post_init__ so that validation names each value where it was written
+    req = object.__new__(Requirement)
+    for f in fields(Requirement):
+        object.__setattr__(req, f.name, kw.get(f.name, f.default))
+    req.validate(lab)
+    return req
+
+
+def read_design(path: str | Path) -> dict[str, Any]:
+    """The raw keys and values of a TOML design file (keys normalised, not parsed)."""
+    p = Path(path)
+    where = f"{p.name}: "
+    try:
+        with p.open("rb") as f:
+            data = tomllib.load(f)
+    except FileNotFoundError:
+        raise BadValue("--design", str(path), "does not exist; give the path of a TOML "
+                       "design file") from None
+    except tomllib.TOMLDecodeError as exc:
+        raise BadRequirement(f"{where}not valid TOML: {exc}") from None
+    except OSError as exc:
+        raise BadValue("--design", str(path), f"cannot be read ({exc.strerror})") from None
+    if "stage" in data and isinstance(data["stage"], Mapping):
+        data = {**{k: v for k, v in data.items() if k != "stage"}, **data["stage"]}
+    return {normal_key(k, where): v for k, v in data.items()}
+
+
+def requirement_from(options: Mapping[str, Any], design: str | Path | None = None) -> Requirement:
+    """Merge a design file (if any) with command-line options; options win.
+
+    ``options`` holds command-line values under requirement keys (None = not given).
+    """
+    values: dict[str, tuple[Any, str]] = {}
+    if design is not None:
+        where = f"{Path(design).name}: "
+        values.update({k: (v, where) for k, v in read_design(design).items()})
+    for k, v in options.items():
+        if v is not None and v != ():
+            values[normal_key(k)] = (v, "--")
+    return _build(values)
+
+
+def load_design(path: str | Path) -> Requirement:
+    """The requirement a TOML design file describes (same keys as the options)."""
+    return requirement_from({}, path)
+
+
+__all__ = [
+    "ELV_DC_V", "KEYS", "NETWORK_NAMES", "TOPOLOGIES", "Requirement", "Topology",
+    "load_design", "read_design", "requirement_from",
+]
