@@ -1,10 +1,13 @@
-"""`picker db ...`: schema upgrades (and, later, backup and restore)."""
+"""`picker db ...`: schema upgrades, backup and restore."""
 
 from __future__ import annotations
+
+from pathlib import Path
 
 import click
 
 from picker.cli.params import db_option
+from picker.errors import StoreError
 
 
 @click.group()
@@ -23,3 +26,57 @@ def upgrade(db: str | None) -> None:
     before = current(store.engine)
     store.upgrade()
     click.echo(f"{store.where}: schema {before or 'empty'} -> {HEAD}")
+
+
+@db.command()
+@click.argument("file", type=click.Path(dir_okay=False, path_type=Path))
+@click.option("--portable", is_flag=True,
+              help="write picker's JSON-lines backup (any SQLite or PostgreSQL stockroom "
+              "can restore it); always used for PostgreSQL")
+@db_option
+def backup(file: Path, portable: bool, db: str | None) -> None:
+    """Back the whole stockroom up to FILE, safely while others keep working.
+
+    A SQLite stockroom is copied with SQLite's online backup API into a SQLite file;
+    a PostgreSQL stockroom is exported to a portable JSON-lines file (see the README
+    for the server's own pg_dump).
+    """
+    from picker.store.backup import backup as run_backup
+
+    store = _open_existing(db)
+    report = run_backup(store, file, portable=portable)
+    rows = ", ".join(f"{n} {t}" for t, n in sorted(report.rows.items()))
+    click.echo(f"backed up {store.where} (schema {report.schema}; {rows}) to {report.path} "
+               f"({'portable JSON lines' if report.kind == 'portable' else 'SQLite file'})")
+
+
+@db.command()
+@click.argument("file", type=click.Path(exists=True, dir_okay=False, path_type=Path))
+@db_option
+def restore(file: Path, db: str | None) -> None:
+    """Restore a backup FILE into a new, empty stockroom: every row or nothing.
+
+    The target must be empty (a new file or database) or freshly created with no
+    parts; a backup from an older picker is brought up to this schema on the way.
+    """
+    from picker.store import Store
+    from picker.store.restore import restore as run_restore
+
+    store = Store.open(db, check=False)
+    report = run_restore(store, file)
+    rows = ", ".join(f"{n} {t}" for t, n in sorted(report.rows.items()))
+    click.echo(f"restored {rows} from {file} into {store.where} "
+               f"(schema {report.schema_from} -> {report.schema_to})")
+
+
+def _open_existing(db: str | None):  # type: ignore[no-untyped-def]
+    """Open a stockroom of this or an older schema (a backup comes before an upgrade)."""
+    from picker.store import Store
+    from picker.store.backup import sqlite_path
+    from picker.store.engine import is_sqlite, resolve_url
+
+    url = resolve_url(db)
+    path = sqlite_path(url) if is_sqlite(url) else None
+    if path is not None and not path.exists():
+        raise StoreError(f"no stockroom at {path}; nothing to back up")
+    return Store.open(db, check=False)

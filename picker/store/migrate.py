@@ -68,20 +68,24 @@ def upgrade_on(conn: Connection, revision: str = "head") -> None:
 
 def current(engine: Engine) -> str | None:
     """The database's schema revision, or None for an empty database."""
+    with engine.connect() as conn:
+        return current_on(conn)
+
+
+def current_on(conn: Connection) -> str | None:
+    """current() on an open connection (inside its transaction)."""
     from sqlalchemy import inspect, text
 
-    with engine.connect() as conn:
-        if not inspect(conn).has_table("alembic_version"):
-            return None
-        row = conn.execute(text("SELECT version_num FROM alembic_version")).first()
+    if not inspect(conn).has_table("alembic_version"):
+        return None
+    row = conn.execute(text("SELECT version_num FROM alembic_version")).first()
     return None if row is None else str(row[0])
 
 
 def script_head() -> str:
     """The head revision as alembic reads it from the migration scripts."""
-    from alembic.script import ScriptDirectory
-
     from alembic.config import Config
+    from alembic.script import ScriptDirectory
 
     cfg = Config()
     cfg.set_main_option("script_location", str(MIGRATIONS))
