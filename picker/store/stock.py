@@ -146,6 +146,8 @@ def _log(
     conn: Connection, part_id: int, label: str, delta: int, qty_after: int,
     project: str | None, reason: Reason, by: str, note: str | None, at: datetime,
 ) -> Movement:
+    """The log row of a movement; called while the part's row is locked, with the time
+    taken after the lock was granted (so times follow the order of the movements)."""
     from sqlalchemy import insert
 
     from picker.store.models import movements
@@ -190,7 +192,7 @@ def take(store: Store, label: str, qty: int, project: str, by: str,
             raise Conflict(
                 f"only {have} of {label} left, {n} asked for {proj}; nothing changed"
             )
-        return _log(conn, row.id, label, -n, row.qty, proj, "take", who or "", text, at)
+        return _log(conn, row.id, label, -n, row.qty, proj, "take", who or "", text, _now())
 
 
 def return_(store: Store, label: str, qty: int, project: str, by: str,
@@ -227,7 +229,7 @@ def return_(store: Store, label: str, qty: int, project: str, by: str,
                 f"{proj} has only {max(out, 0)} of {label} out, so {n} cannot come back; "
                 "nothing changed (check --for, or book new stock with `picker stock add`)"
             )
-        return _log(conn, row.id, label, n, row.qty, proj, "return", who or "", text, at)
+        return _log(conn, row.id, label, n, row.qty, proj, "return", who or "", text, _now())
 
 
 def restock(store: Store, label: str, qty: int, by: str, note: str | None = None) -> Movement:
@@ -249,7 +251,7 @@ def restock(store: Store, label: str, qty: int, by: str, note: str | None = None
         ).first()
         if row is None:
             raise _missing(label)
-        return _log(conn, row.id, label, n, row.qty, None, "restock", who or "", text, at)
+        return _log(conn, row.id, label, n, row.qty, None, "restock", who or "", text, _now())
 
 
 def count(store: Store, label: str, qty: int, by: str, note: str | None = None) -> Movement:
@@ -273,7 +275,8 @@ def count(store: Store, label: str, qty: int, by: str, note: str | None = None) 
         if row is None:
             raise _missing(label)
         conn.execute(update(parts).where(parts.c.id == row.id).values(qty=n))
-        return _log(conn, row.id, label, n - int(row.qty), n, None, "count", who or "", text, at)
+        return _log(conn, row.id, label, n - int(row.qty), n, None, "count", who or "", text,
+                    _now())
 
 
 def reserve(store: Store, label: str, qty: int, project: str, by: str) -> Movement:
@@ -289,7 +292,8 @@ def _utc(value: datetime) -> datetime:
 
 def log(store: Store, label: str | None = None, since: datetime | date | None = None,
         ) -> list[Movement]:
-    """The movement log, oldest first; for one part (also after it was removed)."""
+    """The movement log in the order the movements happened (id order; ids are given
+    while the part's row is locked), for one part also after it was removed."""
     from sqlalchemy import and_, func, or_, select
     from sqlalchemy.exc import OperationalError
 
@@ -300,7 +304,7 @@ def log(store: Store, label: str | None = None, since: datetime | date | None = 
         select(m.c.id, m.c.at, m.c.by_user, func.coalesce(parts.c.label, m.c.part_label),
                m.c.delta, m.c.qty_after, m.c.project, m.c.reason, m.c.note)
         .select_from(m.outerjoin(parts, parts.c.id == m.c.part_id))
-        .order_by(m.c.at, m.c.id)
+        .order_by(m.c.id)
     )
     if since is not None:
         if not isinstance(since, datetime):
