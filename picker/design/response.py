@@ -1,0 +1,156 @@
+"""Closed-loop frequency response of a stage: gain (dB) and phase over frequency, per part.
+
+The exact closed-loop gain is picker.design.circuit's nodal solution written as a
+bilinear function of the open-loop gain, G = (n0 + n1·A)/(d0 + d1·A). With the single
+pole A(s) = ωu/(s + ωp), ωu = 2π·GBW, ωp = ωu/A0 (A0 unknown: ωp = 0), multiplying
+through by (s + ωp) gives a first-order transfer function
+
+    G(s) = (b1·s + b0)/(a1·s + a0),
+    b1 = n0,  b0 = n0·ωp + n1·ωu,  a1 = d0,  a0 = d0·ωp + d1·ωu.
+
+The -3 dB frequency is where |G(jω)|² = |G(0)|²/2:
+
+    2·a0²·(b1²ω² + b0²) = b0²·(a1²ω² + a0²)
+    ω² = a0²·b0² / (a1²·b0² − 2·a0²·b1²)
+
+(no -3 dB point, reported as infinity, when the denominator is not positive: the
+network's own feed-through keeps the gain above it). Every quantity is an array with
+one element per part; the sweep is parts × frequencies.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping
+from dataclasses import dataclass
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+import numpy.typing as npt
+
+from picker.design.circuit import loop
+from picker.design.topology import Stage, stage
+
+if TYPE_CHECKING:
+    from picker.design.requirement import Requirement
+
+Array = npt.NDArray[np.float64]
+
+#: part columns the response reads
+COLUMNS: tuple[str, ...] = ("gbw_hz", "aol_v_per_v", "rin_ohm", "rout_ohm")
+
+
+@dataclass(frozen=True)
+class Transfer:
+    """G(s) = (b1·s + b0)/(a1·s + a0), one coefficient per part."""
+
+    b1: Array
+    b0: Array
+    a1: Array
+    a0: Array
+
+    def gain(self, freq_hz: npt.ArrayLike) -> npt.NDArray[np.complex128]:
+        """G(j2πf), shape parts × frequencies."""
+        s = 2j * np.pi * np.atleast_1d(np.asarray(freq_hz, dtype=float))[None, :]
+        c = {k: np.asarray(getattr(self, k))[:, None] for k in ("b1", "b0", "a1", "a0")}
+        return (c["b1"] * s + c["b0"]) / (c["a1"] * s + c["a0"])  # type: ignore[no-any-return]
+
+    @property
+    def dc(self) -> Array:
+        return self.b0 / self.a0  # type: ignore[no-any-return]
+
+    @property
+    def f3db(self) -> Array:
+        """The -3 dB frequency (|G| = |G(0)|/√2) in Hz; inf where there is none."""
+        den = self.a1**2 * self.b0**2 - 2 * self.a0**2 * self.b1**2
+        with np.errstate(divide="ignore", invalid="ignore"):
+            w2 = np.where(den > 0, self.a0**2 * self.b0**2 / den, np.inf)
+        return np.sqrt(w2) / (2 * np.pi)  # type: ignore[no-any-return]
+
+
+def transfer(st: Stage, aol: npt.ArrayLike, gbw_hz: npt.ArrayLike, rin_ohm: npt.ArrayLike,
+             rout_ohm: npt.ArrayLike) -> Transfer:
+    """The first-order closed-loop transfer function of ``st`` for every part."""
+    a0 = np.asarray(aol, dtype=float)
+    wu = 2 * np.pi * np.asarray(gbw_hz, dtype=float)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        wp = np.where(np.isfinite(a0) & (a0 > 0), wu / a0, 0.0)
+    lp = loop(st, rin_ohm, rout_ohm)
+    n0, n1, d0, d1 = (np.broadcast_to(v, wu.shape) for v in (lp.n0, lp.n1, lp.d0, lp.d1))
+    return Transfer(b1=n0 + 0 * wu, b0=n0 * wp + n1 * wu, a1=d0 + 0 * wu, a0=d0 * wp + d1 * wu)
+
+
+@dataclass(frozen=True)
+class Response:
+    """Closed-loop response of one stage for every part."""
+
+    labels: tuple[str, ...]
+    freq_hz: float  # the top signal frequency
+    freqs: Array  # (F,) sweep, Hz
+    gain_db: Array  # (P, F)
+    phase_deg: Array  # (P, F), unwrapped from its low-frequency value
+    f3db: Array  # (P,) Hz (inf: none)
+    dc_gain_db: Array  # (P,)
+    gain_at_f: Array  # (P,) dB at freq_hz
+    phase_at_f: Array  # (P,) degrees at freq_hz, in (-180, 180]
+    known: npt.NDArray[np.bool_]  # (P,) False: GBW unknown
+
+    def summary(self, i: int) -> dict[str, Any]:
+        """The JSON record of part ``i`` (Hz, dB, degrees)."""
+        def num(v: float) -> float | None:
+            return None if not math.isfinite(v) else float(v)
+        return {"part": self.labels[i], "f3db": num(self.f3db[i]),
+                "gain_at_f": num(self.gain_at_f[i]), "phase_at_f": num(self.phase_at_f[i])}
+
+    def index(self, label: str) -> int:
+        return self.labels.index(label)
+
+
+def _column(parts: Mapping[str, Any], name: str, n: int) -> Array:
+    if name in parts:
+        return np.asarray(parts[name], dtype=float).reshape(n)
+    return np.full(n, np.nan)
+
+
+def sweep(freq_hz: float, f3db: Array, points_per_decade: int = 50) -> Array:
+    """A log frequency axis spanning the top frequency and every finite -3 dB point,
+    two decades below the lowest and one above the highest."""
+    marks = [freq_hz, *[float(v) for v in f3db[np.isfinite(f3db) & (f3db > 0)]]]
+    lo = math.floor(math.log10(min(marks))) - 2
+    hi = math.ceil(math.log10(max(marks))) + 1
+    return np.logspace(lo, hi, (hi - lo) * points_per_decade + 1)
+
+
+def simulate(st: Stage, parts: Mapping[str, Any], freq_hz: float,
+             labels: tuple[str, ...] | None = None, freqs: npt.ArrayLike | None = None) -> Response:
+    """The closed-loop response of ``st`` for every part in ``parts`` (columns of COLUMNS)."""
+    n = len(np.asarray(parts["gbw_hz"]).reshape(-1))
+    if labels is None:
+        index = getattr(parts, "index", None)
+        labels = tuple(str(v) for v in index) if index is not None else tuple(map(str, range(n)))
+    cols = {c: _column(parts, c, n) for c in COLUMNS}
+    known = np.isfinite(cols["gbw_hz"]) & (cols["gbw_hz"] > 0)
+    gbw = np.where(known, cols["gbw_hz"], 1.0)
+    tf = transfer(st, cols["aol_v_per_v"], gbw, cols["rin_ohm"], cols["rout_ohm"])
+    nan = np.where(known, 0.0, np.nan)
+    f3 = tf.f3db + nan
+    axis = sweep(freq_hz, f3) if freqs is None else np.asarray(freqs, dtype=float)
+    g = tf.gain(axis)
+    at_f = tf.gain([freq_hz])[:, 0]
+    with np.errstate(divide="ignore"):
+        db = 20 * np.log10(np.abs(g)) + nan[:, None]
+        at_db = 20 * np.log10(np.abs(at_f)) + nan
+        dc_db = 20 * np.log10(np.abs(tf.dc)) + nan
+    phase = np.degrees(np.unwrap(np.angle(g), axis=1)) + nan[:, None]
+    return Response(labels=labels, freq_hz=freq_hz, freqs=axis, gain_db=db, phase_deg=phase,
+                    f3db=f3, dc_gain_db=dc_db, gain_at_f=at_db,
+                    phase_at_f=np.degrees(np.angle(at_f)) + nan, known=known)
+
+
+def response(req: Requirement, parts: Any, freq_hz: float | None = None,
+             freqs: npt.ArrayLike | None = None) -> Response:
+    """Closed-loop response of the requirement's stage for every part (a DataFrame by label)."""
+    return simulate(stage(req), parts, freq_hz or req.freq_hz, freqs=freqs)
+
+
+__all__ = ["COLUMNS", "Response", "Transfer", "response", "simulate", "sweep", "transfer"]

@@ -1,0 +1,160 @@
+"""ngspice reference for the waveform and response tests: a behavioural op-amp macromodel.
+
+The netlist is written from the stage's actual resistors (the unreduced circuit: source
+resistance, network, load, each to the reference node), not from picker's reduced
+model. The op-amp is
+
+- ``Rin`` between the inputs;
+- a slew-clamped integrator: node x on a 1 F capacitor fed by the current
+  min(max(ωu·(vp − vn) − ωp·(vx − vref), −SR), SR), so dx/dt is the single-pole
+  dynamics capped at ±SR;
+- an output limiter on x: a stiff conductance (1e12 S) past each swing limit;
+- the output: x behind Ro, its current held within ±Iout by a behavioural source.
+
+Small-signal (.ac) the clamps are inactive and the model is the single-pole VCVS with
+Rin and Ro. SPICE reads ``M`` as milli, so numbers are written in plain exponent form.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import shutil
+import subprocess
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from picker.design.requirement import Requirement
+
+
+@dataclass(frozen=True)
+class Part:
+    gbw_hz: float
+    slew_v_per_s: float
+    aol_v_per_v: float
+    rin_ohm: float
+    rout_ohm: float
+    iout_a: float
+    out_head_pos_v: float
+    out_head_neg_v: float
+
+    def frame(self, label: str = "ref-part"):  # type: ignore[no-untyped-def]
+        import pandas as pd
+
+        return pd.DataFrame([self.__dict__], index=[label])
+
+
+def _n(v: float) -> str:
+    return f"{v:.12e}"
+
+
+def _source_and_network(req: Requirement, ac: bool, freq_hz: float) -> list[str]:
+    net = dict(req.network or {})
+    rs = req.source_ohm
+
+    def src(name: str, node: str, scale: float) -> str:
+        if ac:
+            return f"{name} {node} ref DC 0 AC {abs(scale):.12g} {0 if scale > 0 else 180}"
+        return f"{name} {node} ref SIN(0 {_n(scale * req.vin)} {_n(freq_hz)})"
+
+    def series(a: str, b: str, name: str, r: float) -> str:
+        return f"{name} {a} {b} {_n(r)}" if r > 0 else f"V{name} {a} {b} DC 0"
+
+    t = req.topology
+    lines: list[str] = []
+    if t == "inverting":
+        lines += [src("Vs", "s", 1.0), series("s", "a", "Rs", rs),
+                  f"Rg a vn {_n(net['rg'])}", series("out", "vn", "Rf", net["rf"]),
+                  series("vp", "ref", "Rp", net.get("rp", 0.0))]
+    elif t in ("non-inverting", "follower"):
+        lines += [src("Vs", "s", 1.0), series("s", "a", "Rs", rs),
+                  series("a", "vp", "Rp", net.get("rp", 0.0)),
+                  series("out", "vn", "Rf", net.get("rf", 0.0))]
+        if t == "non-inverting" and math.isfinite(net["rg"]):
+            lines.append(f"Rg vn ref {_n(net['rg'])}")
+    else:  # difference, driven by +v/2 and -v/2, each behind Rs
+        lines += [src("Vsp", "sp", 0.5), src("Vsn", "sn", -0.5),
+                  series("sp", "a", "Rsp", rs), series("sn", "b", "Rsn", rs),
+                  f"R3 a vp {_n(net['r3'])}", f"R4 vp ref {_n(net['r4'])}",
+                  f"R1 b vn {_n(net['r1'])}", f"R2 out vn {_n(net['r2'])}"]
+    if req.load_ohm is not None:
+        lines.append(f"RL out ref {_n(req.load_ohm)}")
+    return lines
+
+
+def netlist(req: Requirement, part: Part, control: list[str], *, ac: bool,
+            freq_hz: float | None = None) -> str:
+    f = freq_hz or req.freq_hz
+    wu = 2 * math.pi * part.gbw_hz
+    wp = wu / part.aol_v_per_v
+    hi = req.rail_pos - part.out_head_pos_v
+    lo = req.rail_neg + part.out_head_neg_v
+    body = [
+        "* picker waveform reference: behavioural op-amp macromodel",
+        f"Vref ref 0 DC {_n(req.ref)}",
+        *_source_and_network(req, ac, f),
+        f"Rin vp vn {_n(part.rin_ohm)}",
+        "Cx x 0 1",
+        f"Bint 0 x I = min(max({_n(wu)}*v(vp,vn) - {_n(wp)}*(v(x)-v(ref)), "
+        f"-{_n(part.slew_v_per_s)}), {_n(part.slew_v_per_s)})",
+        f"Bclamp x 0 I = 1e12*(uramp(v(x)-{_n(hi)}) - uramp({_n(lo)}-v(x)))",
+        f"Bo 0 out I = min(max((v(x)-v(out))/{_n(part.rout_ohm)}, -{_n(part.iout_a)}), "
+        f"{_n(part.iout_a)})",
+        ".options reltol=1e-6 abstol=1e-12 vntol=1e-9",
+        ".control", *control, ".endc", ".end",
+    ]
+    return "\n".join(body) + "\n"
+
+
+def _ngspice(text: str, tmp_path: Path, name: str, outputs: int = 1) -> list[np.ndarray]:
+    """Run ngspice on ``text``; @OUT0@, @OUT1@, ... name the files its wrdata lines write."""
+    if shutil.which("ngspice") is None:
+        if os.environ.get("CI"):
+            pytest.fail("ngspice is not installed; scripts/test installs it")
+        pytest.skip("ngspice is not installed (scripts/test installs it)")
+    files = [tmp_path / f"{name}.{k}.txt" for k in range(outputs)]
+    for k, path in enumerate(files):
+        text = text.replace(f"@OUT{k}@", str(path))
+    cir = tmp_path / f"{name}.cir"
+    cir.write_text(text)
+    done = subprocess.run(["ngspice", "-b", str(cir)], capture_output=True, text=True,
+                          timeout=120, cwd=tmp_path)
+    for path in files:
+        assert path.exists(), done.stdout[-2000:] + done.stderr[-2000:]
+    return [np.loadtxt(path, ndmin=2) for path in files]
+
+
+def tran(req: Requirement, part: Part, freq_hz: float, tmp_path: Path, *, periods: int = 12,
+         points: int = 2000, name: str = "tran") -> tuple[np.ndarray, np.ndarray]:
+    """ngspice .tran: (t, v(out)) over the last two periods of ``periods``, on a uniform
+    grid of ``points`` per period (ngspice's own steps linearised onto it)."""
+    period = 1.0 / freq_hz
+    step = period / points
+    start = (periods - 2) * period
+    control = [f"tran {_n(step)} {_n(periods * period)} {_n(start)} {_n(step)}",
+               "linearize v(out)", "wrdata @OUT0@ v(out)"]
+    (data,) = _ngspice(netlist(req, part, control, ac=False, freq_hz=freq_hz), tmp_path, name)
+    return data[:, 0], data[:, 1]
+
+
+def ac(req: Requirement, part: Part, tmp_path: Path, *, fstart: float, fstop: float,
+       at: float, per_decade: int = 2000,
+       name: str = "ac") -> tuple[np.ndarray, np.ndarray, complex]:
+    """ngspice .ac per volt of input: a log sweep (f, complex v(out)) and v(out) at ``at``."""
+    control = [f"ac dec {per_decade} {_n(fstart)} {_n(fstop)}", "wrdata @OUT0@ v(out)",
+               f"ac lin 1 {_n(at)} {_n(at)}", "wrdata @OUT1@ v(out)"]
+    sweep, point = _ngspice(netlist(req, part, control, ac=True), tmp_path, name, outputs=2)
+    return sweep[:, 0], sweep[:, 1] + 1j * sweep[:, 2], complex(point[0, 1], point[0, 2])
+
+
+def f3db(f: np.ndarray, g: np.ndarray) -> float:
+    """The first frequency of a sweep where |g| falls 10·log10(2) dB below its first
+    point (log-frequency interpolation between the two bracketing points)."""
+    db = 20 * np.log10(np.abs(g))
+    thr = db[0] - 10 * np.log10(2)
+    i = int(np.argmax(db < thr))
+    assert i > 0, "the sweep never falls 3 dB"
+    return float(10 ** np.interp(thr, [db[i], db[i - 1]], np.log10([f[i], f[i - 1]])))
