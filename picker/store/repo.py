@@ -60,7 +60,11 @@ class Store:
         engine = make_engine(url, must_exist=check)
         store = cls(engine, url)
         if check:
-            migrate.check(engine, store.where)
+            try:
+                migrate.check(engine, store.where)
+            except BaseException:
+                engine.dispose()  # close the connection the check opened
+                raise
         return store
 
     @classmethod
