@@ -180,6 +180,7 @@ class PartData:
     rin_ohm: float | None = None
     aol_v_per_v: float | None = None
     gbw_hz: float | None = None
+    rout_ohm: float | None = None
 
     @classmethod
     def from_row(cls, row: Mapping[str, Any] | None) -> PartData:
@@ -200,7 +201,8 @@ class PartData:
         label = row.get("label")
         return cls(str(label) if label is not None else None,
                    num("iout_a"), num("ib_a"), num("ios_a"), num("vos_v"),
-                   num("in_a_per_rthz"), num("rin_ohm"), num("aol_v_per_v"), num("gbw_hz"))
+                   num("in_a_per_rthz"), num("rin_ohm"), num("aol_v_per_v"), num("gbw_hz"),
+                   num("rout_ohm"))
 
 
 __all__ = ["GAIN_NAMES", "K_B", "MIN_LOAD_OHM", "NOISE_SHARE", "OFFSET_SHARE", "PAIR_NAMES",

@@ -96,12 +96,15 @@ class Network:
 
 def design_network(req: Requirement, part: Mapping[str, Any] | nm.PartData | None = None, *,
                    series: es.SeriesName = "E24", tolerance: float = 0.01,
-                   zin_ohm: float | None = None, seed: int = MC_SEED) -> Network:
+                   zin_ohm: float | None = None, feedback_ohm: float | None = None,
+                   seed: int = MC_SEED) -> Network:
     """The best standard-value network for ``req`` (around ``part``, if given).
 
     ``part`` is a parts-table row (mapping or pandas Series) or PartData; without it
     the limits fall back to common practice (total output load >= 1 kΩ). A network
     given in the requirement is analysed as it is instead of designed.
+    ``feedback_ohm`` pins the feedback resistor (rf; r2 and r4 of the difference stage)
+    to the series value nearest to it; only the leg is searched then.
     """
     if not 0 <= tolerance < 0.5:
         raise BadRequirement(f"--tolerance: {tolerance:g} is not a resistor tolerance; "
@@ -118,14 +121,15 @@ def design_network(req: Requirement, part: Mapping[str, Any] | nm.PartData | Non
     if t == "follower" or (t == "non-inverting" and req.gain == 1):
         slots, net, notes = _follower(req, pd, series)
         return _finish(req, ctx, series, tolerance, slots, net, notes, seed)
-    return _design_pair(req, ctx, series, tolerance, seed)
+    return _design_pair(req, ctx, series, tolerance, seed, feedback_ohm)
 
 
 def _design_pair(req: Requirement, ctx: Context, series: es.SeriesName, tol: float,
-                 seed: int) -> Network:
+                 seed: int, feedback_ohm: float | None) -> Network:
     t, gain = req.topology, req.gain
     v = es.values(series, *nm.WINDOW_OHM)
-    a, b = v[:, None], v[None, :]
+    fv = v if feedback_ohm is None else np.array([es.nearest(feedback_ohm, series)])
+    a, b = fv[:, None], v[None, :]
     model, checks = check_pairs(ctx, a, b)
     ok = np.logical_and.reduce([m for _, m in checks]) if checks else np.ones(model.gain.shape,
                                                                               bool)
@@ -135,12 +139,16 @@ def _design_pair(req: Requirement, ctx: Context, series: es.SeriesName, tol: flo
     err = np.where(ok, np.abs(model.gain / gain - 1), np.inf)
     i, j = np.unravel_index(_first_best(err), err.shape)
     fa, fb = nm.PAIR_NAMES[t]
-    best = (float(v[i]), Slot.single(fb, float(v[j])))
+    best = (float(fv[i]), Slot.single(fb, float(v[j])))
     best_err = float(err[i, j])
     notes: list[str] = []
+    if feedback_ohm is not None:
+        notes.append(f"{fa.capitalize()} pinned at {fmt(fv[0], 'resistance', 4)} ({series} "
+                     f"nearest to {fmt(feedback_ohm, 'resistance', 4)}); only the leg was "
+                     "searched.")
     share = nm.RATIO_SHARE * req.gain_error / req.margin
     if best_err > share:
-        combo = _best_combo(ctx, v, series)
+        combo = _best_combo(ctx, fv, v)
         if combo is not None and combo[2] < best_err - TIE:
             notes.append(
                 f"No single {series} pair comes within {fmt(share, 'ratio')} of the gain (the "
@@ -174,9 +182,9 @@ def _first_best(err: Array) -> int:
     return int(np.flatnonzero(err <= best + TIE)[0])
 
 
-def _best_combo(ctx: Context, v: Array, series: es.SeriesName
-                ) -> tuple[float, Slot, float] | None:
-    """Best pair with the leg made of two standard values in series or parallel."""
+def _best_combo(ctx: Context, fv: Array, v: Array) -> tuple[float, Slot, float] | None:
+    """Best pair with feedback from ``fv`` and the leg made of two values of ``v`` in
+    series or parallel (for each feedback value the two sums nearest the ideal leg)."""
     req = ctx.req
     t, rs, gain = req.topology, req.source_ohm, req.gain
     ii, jj = np.triu_indices(len(v))
@@ -185,10 +193,10 @@ def _best_combo(ctx: Context, v: Array, series: es.SeriesName
     order = np.argsort(vals, kind="stable")
     vals, kind = vals[order], kind[order]
     ii, jj = np.tile(ii, 2)[order], np.tile(jj, 2)[order]
-    target = v / (gain - 1) if t == "non-inverting" else v / gain - rs
+    target = fv / (gain - 1) if t == "non-inverting" else fv / gain - rs
     k = np.searchsorted(vals, target)
     cand = np.clip(np.stack([k - 1, k], axis=1), 0, len(vals) - 1)  # (n_a, 2)
-    a = np.repeat(v[:, None], 2, axis=1)
+    a = np.repeat(fv[:, None], 2, axis=1)
     legs = vals[cand]
     model, checks = check_pairs(ctx, a, legs)
     ok = np.logical_and.reduce([m for _, m in checks]) if checks else np.ones(a.shape, bool)
@@ -202,7 +210,7 @@ def _best_combo(ctx: Context, v: Array, series: es.SeriesName
     how: How = "series" if kind[idx] == 0 else "parallel"
     fb = nm.PAIR_NAMES[t][1]
     slot = Slot(fb, float(legs[r, c]), (float(v[ii[idx]]), float(v[jj[idx]])), how)
-    return float(v[r]), slot, float(err[r, c])
+    return float(fv[r]), slot, float(err[r, c])
 
 
 def _offset_parts(ctx: Context, net: Mapping[str, float]) -> tuple[float, float, float, float]:
@@ -307,4 +315,22 @@ def _tolerance_notes(req: Requirement, n: Network) -> list[str]:
             f"budget; to guarantee it, {fix}."]
 
 
-__all__ = ["COMP_MIN_IMPROVEMENT", "Network", "TIE", "design_network"]
+def exact_gain(req: Requirement, network: Mapping[str, float],
+               part: Mapping[str, Any] | nm.PartData) -> tuple[complex, complex] | None:
+    """The stage's exact closed-loop gain (at DC, at the top frequency) with this network
+    around the part's macromodel (picker.design.circuit; unknown Rin = infinite, unknown
+    Ro = 0). None when the part's A0 or GBW is unknown."""
+    from picker.design.circuit import closed_loop_gain
+    from picker.design.topology import stage
+
+    p = part if isinstance(part, nm.PartData) else nm.PartData.from_row(part)
+    if p.aol_v_per_v is None or p.gbw_hz is None:
+        return None
+    st = stage(req.with_changes(network=dict(network)))
+    a0, gbw, rin, ro = (np.array([np.nan if x is None else x])
+                        for x in (p.aol_v_per_v, p.gbw_hz, p.rin_ohm, p.rout_ohm))
+    dc, top = (complex(closed_loop_gain(st, a0, gbw, rin, ro, f)[0]) for f in (0.0, req.freq_hz))
+    return dc, top
+
+
+__all__ = ["COMP_MIN_IMPROVEMENT", "Network", "TIE", "design_network", "exact_gain"]

@@ -343,3 +343,12 @@ def test_given_network_is_analysed_not_designed() -> None:
     # reference: 1 + Rf/Rg at the corners Rf(1 ± t), Rg(1 ∓ t) (by hand)
     assert_allclose((lo, hi), (1 + 10 * 0.99 / 1.01, 1 + 10 * 1.01 / 0.99), rtol=1e-12)
     assert np.isfinite(net.mc_p99_error)
+
+
+def test_pinned_feedback_resistor_searches_only_the_leg() -> None:
+    r = req("inverting", 4.7)
+    net = design_network(r, None, series="E24", feedback_ohm=33e3)
+    # reference: IEC 60063 E24 holds 33 kΩ; the leg is the best over all E24 values
+    assert net.network["rf"] == 33e3 and is_iec_member(33e3, "E24")
+    single = min(abs(33e3 / b / 4.7 - 1) for b in eseries_values("E24"))
+    assert abs(net.gain_error) <= single + TIE

@@ -19,7 +19,7 @@ from numpy.testing import assert_allclose
 
 from picker.design import netmodel as nm
 from picker.design.circuit import closed_loop_gain
-from picker.design.network import design_network
+from picker.design.network import design_network, exact_gain
 from picker.design.requirement import Requirement
 from picker.design.topology import stage
 
@@ -99,6 +99,8 @@ def test_exact_gain_with_the_designed_network_agrees_with_ngspice(
     # reference: ngspice .op of the same circuit; tolerance 1e-7 relative
     assert_allclose(g.real[0], vo, rtol=1e-7)
     assert_allclose(g.imag[0], 0.0, atol=1e-12)
+    dc, _ = exact_gain(req, net.network, PART)  # type: ignore[misc, arg-type]
+    assert_allclose(dc.real, vo, rtol=1e-7)  # reference: the same ngspice .op
 
 
 @pytest.mark.parametrize("topo,zin", [("inverting", 100e3), ("non-inverting", None)])

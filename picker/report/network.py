@@ -1,0 +1,69 @@
+"""A designed resistor network for people: one line per position, then the numbers."""
+
+from __future__ import annotations
+
+from picker.design.network import Network
+from picker.design.tolerance import MC_SAMPLES, MC_SEED
+from picker.quantities import fmt
+
+_ROLE = {
+    "inverting": {"rf": "feedback, output to inverting input",
+                  "rg": "input, source to inverting input",
+                  "rp": "bias-current compensation, non-inverting input to reference"},
+    "non-inverting": {"rf": "feedback, output to inverting input",
+                      "rg": "ground leg, inverting input to reference",
+                      "rp": "bias-current compensation, in series with the non-inverting input"},
+    "follower": {"rf": "feedback, output to inverting input (balances the source)"},
+    "difference": {"r1": "negative input to inverting input",
+                   "r2": "feedback, output to inverting input",
+                   "r3": "positive input to non-inverting input",
+                   "r4": "non-inverting input to reference"},
+}
+
+
+def position_line(net: Network, name: str) -> str:
+    """``Rf 47 kΩ (E24)``, with how a two-resistor position is made."""
+    slot = next(s for s in net.slots if s.name == name)
+    text = f"{name.capitalize()} {fmt(slot.ohms, 'resistance', 4)} ({net.series})"
+    if slot.how != "single":
+        parts = " + ".join(fmt(p, "resistance") for p in slot.parts)
+        text = (f"{name.capitalize()} {fmt(slot.ohms, 'resistance', 4)}: {parts} in "
+                f"{slot.how} ({net.series})")
+    return text
+
+
+def render(net: Network, *, part: str | None = None,
+           exact: tuple[complex, complex] | None = None, freq_hz: float | None = None,
+           cautions: list[str] | None = None) -> str:
+    """The whole report of ``picker net``."""
+    tol = fmt(net.tolerance, "ratio")
+    lines = [f"{net.topology} stage, gain {net.target_gain:.6g} V/V, {net.series} resistors, "
+             f"±{tol}" + (f", limits from {part}" if part else "")]
+    for slot in net.slots:
+        role = _ROLE.get(net.topology, {}).get(slot.name, "")
+        lines.append(f"  {position_line(net, slot.name)}" + (f"   {role}" if role else ""))
+    if not net.slots:
+        lines.append("  (no resistors)")
+    lo, hi = net.worst_case
+    lines += [
+        f"gain {net.gain:.6g} V/V with an ideal op-amp, error {net.gain_error:+.4%}",
+        f"worst case at ±{tol}: {lo:.6g} .. {hi:.6g} V/V "
+        f"(error up to {net.worst_case_error:.3%})",
+        f"Monte Carlo, {MC_SAMPLES} builds (seed {MC_SEED}), uniform within ±{tol}: "
+        f"99% within {net.mc_p99_error:.3%}",
+    ]
+    if exact is not None and part:
+        dc, top = exact
+        at = f" at {fmt(freq_hz, 'frequency')}" if freq_hz else " at the top frequency"
+        lines.append(f"with {part} (exact model): gain error {abs(dc) / net.target_gain - 1:+.4%}"
+                     f" at DC, {abs(top) / net.target_gain - 1:+.4%}{at}")
+    lines.append("limits:")
+    lines += [f"  - {x}" for x in net.limits]
+    if net.notes:
+        lines.append("notes:")
+        lines += [f"  - {x}" for x in net.notes]
+    lines += cautions or []
+    return "\n".join(lines)
+
+
+__all__ = ["position_line", "render"]
