@@ -114,10 +114,10 @@ def _column(parts: Mapping[str, Any], name: str, n: int) -> Array:
 
 def sweep(freq_hz: float, f3db: Array, points_per_decade: int = 50) -> Array:
     """A log frequency axis spanning the top frequency and every finite -3 dB point,
-    two decades below the lowest and one above the highest."""
+    two decades below the lowest and two above the highest."""
     marks = [freq_hz, *[float(v) for v in f3db[np.isfinite(f3db) & (f3db > 0)]]]
     lo = math.floor(math.log10(min(marks))) - 2
-    hi = math.ceil(math.log10(max(marks))) + 1
+    hi = math.ceil(math.log10(max(marks))) + 2
     return np.logspace(lo, hi, (hi - lo) * points_per_decade + 1)
 
 
