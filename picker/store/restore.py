@@ -94,9 +94,11 @@ class _Source:
                 head = f.read(len(SQLITE_MAGIC))
         except OSError as exc:
             raise BadValue("FILE", str(self.path), f"cannot be read ({exc.strerror})") from None
-        if head == SQLITE_MAGIC:
-            return self._sqlite()
-        return self._portable()
+        try:
+            return self._sqlite() if head == SQLITE_MAGIC else self._portable()
+        except BaseException:
+            self.__exit__()  # `with` does not call __exit__ when __enter__ fails
+            raise
 
     def __exit__(self, *exc: Any) -> None:
         for close in reversed(self._close):
