@@ -30,6 +30,7 @@ import numpy.typing as npt
 
 from picker.design.circuit import loop
 from picker.design.topology import Stage, stage
+from picker.design.waveform import _labels
 
 if TYPE_CHECKING:
     from picker.design.requirement import Requirement
@@ -126,8 +127,7 @@ def simulate(st: Stage, parts: Mapping[str, Any], freq_hz: float,
     """The closed-loop response of ``st`` for every part in ``parts`` (columns of COLUMNS)."""
     n = len(np.asarray(parts["gbw_hz"]).reshape(-1))
     if labels is None:
-        index = getattr(parts, "index", None)
-        labels = tuple(str(v) for v in index) if index is not None else tuple(map(str, range(n)))
+        labels = _labels(parts, n)
     cols = {c: _column(parts, c, n) for c in COLUMNS}
     known = np.isfinite(cols["gbw_hz"]) & (cols["gbw_hz"] > 0)
     gbw = np.where(known, cols["gbw_hz"], 1.0)

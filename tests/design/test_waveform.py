@@ -15,7 +15,7 @@ from picker.design.circuit import closed_loop_gain
 from picker.design.loopstate import loop_state
 from picker.design.requirement import Requirement
 from picker.design.topology import stage
-from picker.design.waveform import LIMITS, Drive, simulate, waveforms
+from picker.design.waveform import LIMITS, Drive, candidate_waveforms, simulate, waveforms
 from tests.design.macromodel_spice import Part, tran
 from tests.design.wave_cases import CASES, F_SLEW, FET, GP, RR, SLEW_STAGE, WIDE
 
@@ -123,3 +123,20 @@ def test_unknown_gbw_gives_no_prediction() -> None:
     assert got.summary(1) == {"part": "blank", "peak_pos": None, "peak_neg": None,
                               "vpp": None, "thd": None, "limits": []}
     assert set(got.summary(0)["limits"]) <= set(LIMITS)
+
+
+def test_candidates_follow_the_ranking() -> None:
+    from picker.design.rank import select
+
+    frame = pd.read_csv(Path(__file__).parents[2] / "data" / "demo_stockroom.csv",
+                        index_col="label")
+    req = Requirement(topology="inverting", gain=10, rail_pos=15, rail_neg=-15,
+                      freq_hz=20e3, vout_pk=10, load_ohm=2e3)
+    got = candidate_waveforms(req, frame, 6)
+    sel = select(frame, req)
+    ranked = [e.part for e in sel.accepted] + [e.part for e in sel.unverified] + [
+        e.part for e in sel.rejected]
+    assert list(got.waves.labels) == ranked[:6]
+    assert got.status[0] == "accepted"
+    alone = waveforms(req, frame.loc[[got.waves.labels[0]]])
+    assert_allclose(got.waves.vout[0], alone.vout[0], rtol=1e-12)
