@@ -328,8 +328,12 @@ def _network(value: Any, name: str) -> dict[str, float]:
 def _build(values: Mapping[str, tuple[Any, str]]) -> Requirement:
     """Parse every (value, where) under its key and make the requirement."""
 
+    # a key nobody gave is named as in the design file when there is one
+    files = [w for _, w in values.values() if w != "--"]
+    missing_where = files[0] if files else "--"
+
     def lab(key: str) -> str:
-        where = values[key][1] if key in values else "--"
+        where = values[key][1] if key in values else missing_where
         return f"{where}{key}"
 
     kw: dict[str, Any] = {}

@@ -1,0 +1,143 @@
+"""Parts 2% either side of each minimum specification pass and fail on exactly that check.
+
+Cases are the stage requirements in tests/data/design_cases.toml. For each, a
+comfortable part (one that passes every check) is varied in one respect only: its
+parameter is set 2% beyond or short of what the stage needs, computed here from the
+minimum specifications (and, for offset and noise, from the physics written out below).
+"""
+
+from __future__ import annotations
+
+import math
+import tomllib
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from picker.design.checks import run_checks
+from picker.design.requirement import Requirement
+from picker.design.spec import Spec, minimum_specs
+
+CASES = tomllib.loads((Path(__file__).parents[1] / "data" / "design_cases.toml").read_text())["case"]
+K_B = 1.380649e-23  # J/K, exact (SI 2019; CODATA 2018)
+
+
+def requirement(case: dict[str, Any]) -> Requirement:
+    return Requirement.from_mapping({k: v for k, v in case.items() if k != "name"}, "case: ")
+
+
+def comfortable(s: Spec) -> dict[str, float]:
+    """A part with room on every check of this stage."""
+    mn = s.minimum
+    return {
+        "slew_v_per_s": 10 * mn["slew_rate"], "gbw_hz": 2 * mn["gbw"],
+        "aol_v_per_v": 1e9, "rin_ohm": 1e15, "rout_ohm": 0.0,
+        "out_head_pos_v": 0.0, "out_head_neg_v": 0.0, "cm_head_pos_v": 0.0, "cm_head_neg_v": 0.0,
+        "iout_a": 10 * mn["output_current"] + 1e-3,
+        "supply_min_v": 0.5 * mn["supply_span"], "supply_max_v": 2 * mn["supply_span"],
+        "vos_v": 0.0, "drift_v_per_c": 0.0, "ib_a": 0.0, "ios_a": 0.0,
+        "en_v_per_rthz": 0.0, "in_a_per_rthz": 0.0, "qty": 1000.0, "channels": 1.0,
+    }  # type: ignore[dict-item]
+
+
+def output_noise(s: Spec, part: dict[str, float]) -> float:
+    """Output RMS noise written out: densities at the output over π/2 × closed-loop pole.
+
+    en·NG and the resistors' 4kTR (rf: gain 1; rg with the source: rf/rg; the
+    non-inverting input's resistance: NG); f_cl = GBW/A0 + GBW/NG (Rin -> ∞, Ro = 0).
+    """
+    st, req = s.stage, s.requirement
+    ng = 1 + (0 if math.isinf(st.rg) else st.rf / st.rg)
+    r = st.rf + (0 if math.isinf(st.rg) else st.rf**2 / st.rg) + st.zp * ng**2
+    density2 = (part["en_v_per_rthz"] * ng) ** 2 + 4 * K_B * (req.temp_max_c + 273.15) * r
+    f_cl = part["gbw_hz"] / part["aol_v_per_v"] + part["gbw_hz"] / ng
+    return math.sqrt(density2 * math.pi / 2 * f_cl)
+
+
+def variants(s: Spec, k: float) -> dict[str, dict[str, float]]:
+    """check name -> a part whose parameter for that check is at k times its limit.
+
+    k > 1 is on the good side: k x the need, or (for errors) the limit / k.
+    """
+    req, mn, st = s.requirement, s.minimum, s.stage
+    base = comfortable(s)
+    out: dict[str, dict[str, float]] = {}
+    out["slew"] = {**base, "slew_v_per_s": k * mn["slew_rate"]}
+    up, down = mn["swing_pos"] - req.ref, req.ref - mn["swing_neg"]
+    out["swing"] = {**base, "out_head_pos_v": req.rail_pos - req.ref - k * up,
+                    "out_head_neg_v": req.ref - req.rail_neg - k * down}
+    lo, hi = s.common_mode
+    if hi > lo:
+        out["common_mode"] = {**base, "cm_head_pos_v": req.rail_pos - req.ref - k * (hi - req.ref),
+                              "cm_head_neg_v": req.ref - req.rail_neg - k * (req.ref - lo)}
+    if mn["output_current"]:
+        out["output_current"] = {**base, "iout_a": k * mn["output_current"]}
+    out["supply_max"] = {**base, "supply_max_v": k * req.span}
+    out["supply_min"] = {**base, "supply_min_v": req.span / k}
+    rin = mn["input_resistance"] or 1e15
+    at_min = {**base, "aol_v_per_v": mn["open_loop_gain"], "gbw_hz": mn["gbw"], "rin_ohm": rin}
+    out["gain_accuracy_gbw"] = {**at_min, "gbw_hz": k * mn["gbw"]}
+    out["gain_accuracy_a0"] = {**at_min, "aol_v_per_v": k * mn["open_loop_gain"]}
+    if mn["input_resistance"] is not None:
+        out["gain_accuracy_rin"] = {**at_min, "rin_ohm": k * rin}
+    if req.offset_max_v is not None:
+        ng = 1 + (0 if math.isinf(st.rg) else st.rf / st.rg)
+        # offset = NG·Vos with no bias currents and no drift (Franco, 4th ed., ch. 5, from memory)
+        out["offset"] = {**base, "vos_v": req.offset_max_v / req.margin / k / ng}
+    if req.noise_max_v is not None:
+        target = req.noise_max_v / req.margin / k
+        part = dict(base)
+        r_only = output_noise(s, part)
+        assert r_only < target, "case: the resistors alone are too noisy for this test"
+        ng = 1 + (0 if math.isinf(st.rg) else st.rf / st.rg)
+        enbw = math.pi / 2 * (part["gbw_hz"] / part["aol_v_per_v"] + part["gbw_hz"] / ng)
+        en = math.sqrt((target**2 - r_only**2) / enbw) / ng
+        out["noise"] = {**part, "en_v_per_rthz": en}
+        assert math.isclose(output_noise(s, out["noise"]), target, rel_tol=1e-12)
+    return out
+
+
+CHECK_OF = {"supply_max": "supply", "supply_min": "supply", "gain_accuracy_gbw": "gain_accuracy",
+            "gain_accuracy_a0": "gain_accuracy", "gain_accuracy_rin": "gain_accuracy"}
+
+
+@pytest.mark.parametrize("case", CASES, ids=[c["name"] for c in CASES])
+def test_comfortable_part_passes_everything(case: dict[str, Any]) -> None:
+    s = minimum_specs(requirement(case))
+    table = run_checks(pd.DataFrame([comfortable(s)], index=["comfortable"]), s)
+    assert {n: r.status[0] for n, r in table.results.items()} == {n: "pass" for n in table.results}
+    assert set(table.results) == {"swing", "common_mode", "slew", "gain_accuracy",
+                                  "output_current", "supply", "offset", "noise", "stock"}
+
+
+@pytest.mark.parametrize("case", CASES, ids=[c["name"] for c in CASES])
+@pytest.mark.parametrize("k,expected", [(1.02, "pass"), (0.98, "fail")], ids=["above", "below"])
+def test_two_percent_either_side(case: dict[str, Any], k: float, expected: str) -> None:
+    s = minimum_specs(requirement(case))
+    parts = variants(s, k)
+    frame = pd.DataFrame(list(parts.values()), index=list(parts))
+    table = run_checks(frame, s)
+    assert len(parts) >= 8
+    for i, name in enumerate(parts):
+        check = CHECK_OF.get(name, name)
+        got = {n: str(r.status[i]) for n, r in table.results.items()}
+        want = {n: "pass" for n in got} | {check: expected}
+        assert got == want, f"{name} at {k:g}: {got}"
+        margin = table.results[check].margin[i]  # type: ignore[index]
+        assert (margin >= 1) == (expected == "pass")
+
+
+@pytest.mark.parametrize("case", CASES[:1], ids=[CASES[0]["name"]])
+def test_stock_counts_channels(case: dict[str, Any]) -> None:
+    req = requirement(case).with_changes(qty=5)
+    s = minimum_specs(req)
+    base = comfortable(s)
+    rows = {"three duals": {**base, "qty": 3.0, "channels": 2.0},
+            "two duals": {**base, "qty": 2.0, "channels": 2.0},
+            "five, channels unknown": {**base, "qty": 5.0, "channels": np.nan},
+            "four, channels unknown": {**base, "qty": 4.0, "channels": np.nan}}
+    table = run_checks(pd.DataFrame(list(rows.values()), index=list(rows)), s)
+    assert list(table.results["stock"].status) == ["pass", "fail", "pass", "unknown"]
