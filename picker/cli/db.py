@@ -7,6 +7,7 @@ from pathlib import Path
 import click
 
 from picker.cli.params import db_option
+from picker.cli.stock import opened
 from picker.errors import StoreError
 
 
@@ -19,13 +20,15 @@ def db() -> None:
 @db_option
 def upgrade(db: str | None) -> None:
     """Bring the stockroom's schema up to this version of picker (keeps every row)."""
-    from picker.store import Store
-    from picker.store.migrate import HEAD, current
+    from picker.store.migrate import HEAD, REVISIONS, revision
 
-    store = Store.open(db, check=False)
-    before = current(store.engine)
-    store.upgrade()
-    click.echo(f"{store.where}: schema {before or 'empty'} -> {HEAD}")
+    with opened(db, check=False) as store:
+        before = revision(store.engine, store.where)
+        if before is not None and before not in REVISIONS:
+            raise StoreError(f"{store.where} has schema {before}, made by a newer picker than "
+                             f"this one ({HEAD}); upgrade picker instead")
+        store.upgrade()
+        click.echo(f"{store.where}: schema {before or 'empty'} -> {HEAD}")
 
 
 @db.command()
@@ -43,11 +46,13 @@ def backup(file: Path, portable: bool, db: str | None) -> None:
     """
     from picker.store.backup import backup as run_backup
 
-    store = _open_existing(db)
-    report = run_backup(store, file, portable=portable)
-    rows = ", ".join(f"{n} {t}" for t, n in sorted(report.rows.items()))
-    click.echo(f"backed up {store.where} (schema {report.schema}; {rows}) to {report.path} "
-               f"({'portable JSON lines' if report.kind == 'portable' else 'SQLite file'})")
+    _must_exist(db)
+    with opened(db, check=False) as store:
+        report = run_backup(store, file, portable=portable)
+        rows = ", ".join(f"{n} {t}" for t, n in sorted(report.rows.items()))
+        click.echo(f"backed up {store.where} (schema {report.schema}; {rows}) to "
+                   f"{report.path} "
+                   f"({'portable JSON lines' if report.kind == 'portable' else 'SQLite file'})")
 
 
 @db.command()
@@ -59,19 +64,17 @@ def restore(file: Path, db: str | None) -> None:
     The target must be empty (a new file or database) or freshly created with no
     parts; a backup from an older picker is brought up to this schema on the way.
     """
-    from picker.store import Store
     from picker.store.restore import restore as run_restore
 
-    store = Store.open(db, check=False)
-    report = run_restore(store, file)
-    rows = ", ".join(f"{n} {t}" for t, n in sorted(report.rows.items()))
-    click.echo(f"restored {rows} from {file} into {store.where} "
-               f"(schema {report.schema_from} -> {report.schema_to})")
+    with opened(db, check=False) as store:
+        report = run_restore(store, file)
+        rows = ", ".join(f"{n} {t}" for t, n in sorted(report.rows.items()))
+        click.echo(f"restored {rows} from {file} into {store.where} "
+                   f"(schema {report.schema_from} -> {report.schema_to})")
 
 
-def _open_existing(db: str | None):  # type: ignore[no-untyped-def]
-    """Open a stockroom of this or an older schema (a backup comes before an upgrade)."""
-    from picker.store import Store
+def _must_exist(db: str | None) -> None:
+    """A backup needs a stockroom: do not create an empty SQLite file for a mistyped path."""
     from picker.store.backup import sqlite_path
     from picker.store.engine import is_sqlite, resolve_url
 
@@ -79,4 +82,3 @@ def _open_existing(db: str | None):  # type: ignore[no-untyped-def]
     path = sqlite_path(url) if is_sqlite(url) else None
     if path is not None and not path.exists():
         raise StoreError(f"no stockroom at {path}; nothing to back up")
-    return Store.open(db, check=False)

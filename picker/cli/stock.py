@@ -3,7 +3,8 @@
 from __future__ import annotations
 
 import sys
-from collections.abc import Callable
+from collections.abc import Callable, Iterator
+from contextlib import contextmanager
 from typing import Any, TypeVar
 
 import click
@@ -14,6 +15,18 @@ from picker.errors import BadValue
 F = TypeVar("F", bound=Callable[..., Any])
 
 _QTY = click.IntRange(min=1)
+
+
+@contextmanager
+def opened(db: str | None, *, check: bool = True) -> Iterator[Any]:
+    """The stockroom for one command, its connections closed when the command ends."""
+    from picker.store import Store
+
+    store = open_store(db) if check else Store.open(db, check=False)
+    try:
+        yield store
+    finally:
+        store.dispose()
 
 
 def who(by: str | None) -> str:
@@ -60,7 +73,8 @@ def take(part: str, qty: int, project: str, by: str | None, note: str | None,
     """Take QTY packages of PART out of the stockroom for a project."""
     from picker.store import stock as ops
 
-    mv = ops.take(open_store(db), part, qty, project, who(by), note)
+    with opened(db) as store:
+        mv = ops.take(store, part, qty, project, who(by), note)
     click.echo(f"took {qty} of {mv.part} for {mv.project}; {mv.qty_after} left")
 
 
@@ -77,7 +91,8 @@ def return_(part: str, qty: int, project: str, by: str | None, note: str | None,
     """Put QTY packages of PART back (no more than the project has out)."""
     from picker.store import stock as ops
 
-    mv = ops.return_(open_store(db), part, qty, project, who(by), note)
+    with opened(db) as store:
+        mv = ops.return_(store, part, qty, project, who(by), note)
     click.echo(f"returned {qty} of {mv.part} from {mv.project}; {mv.qty_after} on hand")
 
 
@@ -91,7 +106,8 @@ def add(part: str, qty: int, by: str | None, note: str | None, db: str | None) -
     """Restock: add QTY new packages of PART (a delivery)."""
     from picker.store import stock as ops
 
-    mv = ops.restock(open_store(db), part, qty, who(by), note)
+    with opened(db) as store:
+        mv = ops.restock(store, part, qty, who(by), note)
     click.echo(f"added {qty} of {mv.part}; {mv.qty_after} on hand")
 
 
@@ -105,7 +121,8 @@ def count(part: str, qty: int, by: str | None, note: str | None, db: str | None)
     """Set PART's quantity after a physical count; the log keeps the difference."""
     from picker.store import stock as ops
 
-    mv = ops.count(open_store(db), part, qty, who(by), note)
+    with opened(db) as store:
+        mv = ops.count(store, part, qty, who(by), note)
     click.echo(f"counted {mv.qty_after} of {mv.part} ({mv.delta:+d} against the books)")
 
 
@@ -123,7 +140,8 @@ def log(part: str | None, since: str | None, fmt: str, db: str | None) -> None:
     from picker.store import stock as ops
 
     when = ops.parse_since(since) if since is not None else None
-    moves = ops.log(open_store(db), part, when)
+    with opened(db) as store:
+        moves = ops.log(store, part, when)
     if fmt == "json":
         click.echo(to_json(log_records(moves)))
     elif fmt == "csv":
@@ -144,7 +162,8 @@ def low(below: int | None, fmt: str, db: str | None) -> None:
     from picker.report.tables import to_json
     from picker.store import stock as ops
 
-    rows = ops.low(open_store(db), below)
+    with opened(db) as store:
+        rows = ops.low(store, below)
     if fmt == "json":
         click.echo(to_json(rows))
     elif fmt == "csv":

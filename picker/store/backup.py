@@ -66,12 +66,7 @@ def sqlite_path(url: str) -> Path | None:
 
 def schema_of(store: Store) -> str:
     """The stockroom's schema revision; refuses no stockroom or a newer one."""
-    from sqlalchemy.exc import OperationalError, ProgrammingError
-
-    try:
-        rev = migrate.current(store.engine)
-    except (OperationalError, ProgrammingError) as exc:
-        raise busy_error(store.where, exc) from None
+    rev = migrate.revision(store.engine, store.where)
     if rev is None:
         raise StoreError(f"{store.where} holds no picker stockroom; nothing to back up")
     if rev not in migrate.REVISIONS:

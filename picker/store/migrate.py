@@ -72,6 +72,21 @@ def current(engine: Engine) -> str | None:
         return current_on(conn)
 
 
+def revision(engine: Engine, where: str) -> str | None:
+    """current(), with an unreachable or unreadable database as a StoreError."""
+    from sqlalchemy.exc import OperationalError, ProgrammingError
+
+    from picker.store.engine import redact
+
+    try:
+        return current(engine)
+    except (OperationalError, ProgrammingError) as exc:
+        text = redact(str(exc.orig)).strip().splitlines()
+        raise StoreError(
+            f"cannot read the stockroom at {where}: {text[0] if text else type(exc).__name__}"
+        ) from None
+
+
 def current_on(conn: Connection) -> str | None:
     """current() on an open connection (inside its transaction)."""
     from sqlalchemy import inspect, text
