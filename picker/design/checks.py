@@ -34,6 +34,19 @@ Strings = npt.NDArray[np.str_]
 # checks left out of the ranking margin (logistics, not electrical headroom)
 NOT_RANKED: frozenset[str] = frozenset({"stock"})
 
+#: The part fields each check reads (to say which one is missing when it is unknown).
+CHECK_FIELDS: dict[CheckName, tuple[str, ...]] = {
+    "swing": ("out_head_pos_v", "out_head_neg_v"),
+    "common_mode": ("cm_head_pos_v", "cm_head_neg_v"),
+    "slew": ("slew_v_per_s",),
+    "gain_accuracy": ("aol_v_per_v", "gbw_hz", "rin_ohm", "rout_ohm"),
+    "output_current": ("iout_a",),
+    "supply": ("supply_min_v", "supply_max_v"),
+    "offset": ("vos_v", "drift_v_per_c", "ib_a", "ios_a"),
+    "noise": ("en_v_per_rthz", "in_a_per_rthz", "gbw_hz", "aol_v_per_v"),
+    "stock": ("qty", "channels"),
+}
+
 
 class Parts(Mapping[str, Array]):
     """The numeric columns of a parts table as float arrays (NaN = unknown)."""
@@ -204,5 +217,5 @@ def run_checks(parts: Parts | Any, spec: Any) -> CheckTable:
     return CheckTable(p.labels, {n: fn(p, spec) for n, fn in fns.items()})
 
 
-__all__ = ["CHECKS", "CheckName", "CheckResult", "CheckTable", "Parts", "Status",
+__all__ = ["CHECKS", "CHECK_FIELDS", "CheckName", "CheckResult", "CheckTable", "Parts", "Status",
            "at_least", "at_most", "result", "run_checks", "worse"]

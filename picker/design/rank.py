@@ -52,6 +52,7 @@ class Selection:
     rejected: list[Entry]
     unverified: list[Entry]
     nearest: list[Any] = field(default_factory=list)  # picker.design.misses.NearMiss
+    accepted_total: int = 0  # accepted before --top
 
     @property
     def requirement(self) -> Requirement:
@@ -117,13 +118,15 @@ def select(
 
     ok = ~fail & ~unknown
     accepted = _ranked(entries(ok), by, parts)
+    total = len(accepted)
     if top is not None:
         accepted = accepted[:top]
     bad = fail | unknown if strict else fail
     rejected = sorted(entries(bad), key=lambda e: (-close[e.row], e.part))
     unverified = [] if strict else sorted(entries(unknown & ~fail),
                                           key=lambda e: (-e.margin, e.part))
-    sel = Selection(spec, table, parts, by, strict, accepted, rejected, unverified)
+    sel = Selection(spec, table, parts, by, strict, accepted, rejected, unverified,
+                    accepted_total=total)
     if not accepted and rejected and misses > 0:
         from picker.design.misses import nearest_misses
 

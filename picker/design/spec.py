@@ -168,6 +168,10 @@ def minimum_specs(req: Requirement) -> Spec:
     }
     notes = [f"design margin {m:g}: amounts x{m:g}, allowed errors /{m:g}",
              "minimum A0, Rin and GBW assume Ro = 0; each part's check uses its own Ro"]
+    if swing_pos > req.rail_pos or swing_neg < req.rail_neg:
+        notes.append(f"with margin {m:g} the output would have to reach {swing_neg:.4g} V .. "
+                     f"{swing_pos:.4g} V, beyond the rails: no part can pass swing; lower the "
+                     "amplitude or the margin, or widen the rails")
     if budget.opamp <= 0:
         notes.append(f"the network alone misses the gain budget ({budget.network:+.3%} vs "
                      f"{budget.allowed:.3%}); no op-amp can meet it")

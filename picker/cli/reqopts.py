@@ -1,0 +1,81 @@
+"""The stage requirement options, shared by every command that takes a stage.
+
+``@requirement_options`` adds --topology ... --design to a command and hands them to it
+as one mapping, ``stage``; ``build_requirement(stage)`` turns that (plus the design
+file, if any) into a picker.design.requirement.Requirement. Command-line values win
+over the design file's.
+"""
+
+from __future__ import annotations
+
+import functools
+from collections.abc import Callable
+from typing import Any, TypeVar
+
+import click
+
+from picker.cli.params import QuantityParam, RailsParam
+
+F = TypeVar("F", bound=Callable[..., Any])
+
+TOPOLOGY_CHOICE = click.Choice(["inverting", "non-inverting", "follower", "difference"])
+
+# (parameter name, option, click type, help); requirement keys are the option names
+_OPTIONS: tuple[tuple[str, str, Any, str], ...] = (
+    ("topology", "--topology", TOPOLOGY_CHOICE, "stage topology"),
+    ("gain", "--gain", QuantityParam("gain", positive=True),
+     "signal-gain magnitude, V/V or dB (e.g. 10, 20dB); a follower has 1"),
+    ("vin", "--vin", QuantityParam("amplitude"),
+     "input amplitude with its form: 0.5Vpk, 1Vpp, 0.35Vrms (bare = peak)"),
+    ("vout", "--vout", QuantityParam("amplitude"), "output amplitude instead of --vin"),
+    ("freq", "--freq", QuantityParam("frequency", positive=True),
+     "top signal frequency (a sine), e.g. 20kHz"),
+    ("ref", "--ref", QuantityParam("voltage"),
+     "DC level the signal rides on (default: mid-rail)"),
+    ("load", "--load", QuantityParam("resistance", positive=True),
+     "load resistance to the reference (default: none)"),
+    ("source", "--source", QuantityParam("resistance"), "source resistance (default 0)"),
+    ("rails", "--rails", RailsParam(), "supply rails: ±12, +12/-12, +5/0"),
+    ("gain_error", "--gain-error", QuantityParam("ratio", positive=True),
+     "largest closed-loop gain error at DC and at --freq (default 1%)"),
+    ("offset_max", "--offset-max", str, "largest DC output error, e.g. 20mV (default: not checked)"),
+    ("noise_max", "--noise-max", str,
+     "largest output RMS noise, e.g. 100uV (default: not checked)"),
+    ("temp", "--temp", str, "ambient, 85C or a range -40..85C (default 25C; drift from 25C)"),
+    ("qty", "--qty", click.IntRange(min=1), "channels needed (default 1)"),
+    ("margin", "--margin", click.FloatRange(min=1.0),
+     "design margin: needs x margin, allowed errors / margin (default 1.25; 1 = bare minimums)"),
+    ("rf", "--rf", QuantityParam("resistance", positive=True),
+     "feedback resistor of the ideal-ratio network (default 10k)"),
+)
+
+KEYS: tuple[str, ...] = tuple(name for name, *_ in _OPTIONS) + ("mains",)
+
+
+def requirement_options(f: F) -> F:
+    """Add the requirement options; the command receives them as ``stage`` (a dict)."""
+
+    @functools.wraps(f)
+    def wrapper(*args: Any, **kwargs: Any) -> Any:
+        stage = {k: kwargs.pop(k) for k in (*KEYS, "design")}
+        return f(*args, stage=stage, **kwargs)
+
+    cmd: Any = wrapper
+    cmd = click.option("--design", metavar="FILE", type=click.Path(dir_okay=False),
+                       help="TOML design file with the same keys (options override it)")(cmd)
+    cmd = click.option("--mains/--no-mains", default=None,
+                       help="the input comes from mains (shows a safety caution)")(cmd)
+    for name, opt, kind, text in reversed(_OPTIONS):
+        cmd = click.option(opt, name, type=kind, default=None, help=text)(cmd)
+    return cmd  # type: ignore[no-any-return]
+
+
+def build_requirement(stage: dict[str, Any]) -> Any:
+    """The Requirement named by the options (and the design file); PickerError if bad."""
+    from picker.design.requirement import requirement_from
+
+    options = {k.replace("_", "-"): v for k, v in stage.items() if k != "design"}
+    return requirement_from(options, stage.get("design"))
+
+
+__all__ = ["KEYS", "build_requirement", "requirement_options"]
