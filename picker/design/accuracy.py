@@ -59,7 +59,8 @@ def gain_accuracy(p: Parts, s: Spec) -> CheckResult:
     detail = {"error_dc": err_dc, "error_f": err_f, "gain_dc": np.abs(g_dc),
               "gain_f": np.abs(g_f), "phase_f_deg": phase,
               "f_closed_loop": closed_loop_pole_hz(lp, a0, gbw)}
-    return result("gain_accuracy", "ratio", "<=", need, has, detail, note)
+    return result("gain_accuracy", "ratio", "<=", need, has, detail, note,
+                  ("aol_v_per_v", "gbw_hz"))
 
 
 def _terms(terms: list[tuple[float, Array]], n: int) -> tuple[Array, npt.NDArray[np.bool_]]:
@@ -74,12 +75,12 @@ def _terms(terms: list[tuple[float, Array]], n: int) -> tuple[Array, npt.NDArray
     return total, unknown
 
 
-def _partial(name: str, need: float, known: Array, unknown: npt.NDArray[np.bool_], detail: dict[str, Array],
-             note: str) -> CheckResult:
+def _partial(name: str, need: float, known: Array, unknown: npt.NDArray[np.bool_],
+             detail: dict[str, Array], note: str, fields: tuple[str, ...]) -> CheckResult:
     """Fail on what is known; otherwise unknown while any needed parameter is missing."""
     has = np.where(unknown & (known <= need), np.nan, known)
     notes = np.where(unknown & (known > need), note, "")
-    return result(name, "voltage", "<=", need, has, detail, notes)  # type: ignore[arg-type]
+    return result(name, "voltage", "<=", need, has, detail, notes, fields)  # type: ignore[arg-type]
 
 
 def offset(p: Parts, s: Spec) -> CheckResult:
@@ -88,15 +89,16 @@ def offset(p: Parts, s: Spec) -> CheckResult:
     assert req.offset_max_v is not None
     ng, rf, zp, dt = s.noise_gain, st.rf, st.zp, req.drift_span_c
     parts = {
-        "vos": (ng, p["vos_v"]),
-        "drift": (ng * dt, p["drift_v_per_c"]),
-        "ib": (abs(rf - zp * ng), p["ib_a"]),
-        "ios": ((rf + zp * ng) / 2, p["ios_a"]),
+        "vos_v": (ng, p["vos_v"]),
+        "drift_v_per_c": (ng * dt, p["drift_v_per_c"]),
+        "ib_a": (abs(rf - zp * ng), p["ib_a"]),
+        "ios_a": ((rf + zp * ng) / 2, p["ios_a"]),
     }
     known, unknown = _terms(list(parts.values()), len(p))
-    detail = {f"{k}_out": c * np.abs(x) for k, (c, x) in parts.items()}
+    detail = {f"{k.split('_')[0]}_out": c * np.abs(x) for k, (c, x) in parts.items()}
+    needed = tuple(k for k, (c, _) in parts.items() if c != 0)
     return _partial("offset", req.offset_max_v / req.margin, known, unknown, detail,
-                    "at least this; some terms unknown")
+                    "at least this; some terms unknown", needed)
 
 
 def noise(p: Parts, s: Spec) -> CheckResult:
@@ -120,8 +122,9 @@ def noise(p: Parts, s: Spec) -> CheckResult:
               "enbw": enbw}
     unknown = unknown | np.isnan(enbw)
     total = np.where(np.isnan(enbw), 0.0, total)
+    needed = ("en_v_per_rthz",) + (("in_a_per_rthz",) if i_gain2 > 0 else ()) + ("gbw_hz",)
     return _partial("noise", req.noise_max_v / req.margin, total, unknown, detail,
-                    "at least this; some terms unknown")
+                    "at least this; some terms unknown", needed)
 
 
 __all__ = ["BOLTZMANN", "gain_accuracy", "noise", "offset"]

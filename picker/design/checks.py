@@ -34,20 +34,6 @@ Strings = npt.NDArray[np.str_]
 # checks left out of the ranking margin (logistics, not electrical headroom)
 NOT_RANKED: frozenset[str] = frozenset({"stock"})
 
-#: The part fields each check reads (to say which one is missing when it is unknown).
-CHECK_FIELDS: dict[CheckName, tuple[str, ...]] = {
-    "swing": ("out_head_pos_v", "out_head_neg_v"),
-    "common_mode": ("cm_head_pos_v", "cm_head_neg_v"),
-    "slew": ("slew_v_per_s",),
-    "gain_accuracy": ("aol_v_per_v", "gbw_hz", "rin_ohm", "rout_ohm"),
-    "output_current": ("iout_a",),
-    "supply": ("supply_min_v", "supply_max_v"),
-    "offset": ("vos_v", "drift_v_per_c", "ib_a", "ios_a"),
-    "noise": ("en_v_per_rthz", "in_a_per_rthz", "gbw_hz", "aol_v_per_v"),
-    "stock": ("qty", "channels"),
-}
-
-
 class Parts(Mapping[str, Array]):
     """The numeric columns of a parts table as float arrays (NaN = unknown)."""
 
@@ -90,6 +76,7 @@ class CheckResult:
     margin: Array
     detail: dict[str, Array] = field(default_factory=dict)  # intermediate values for `why`
     note: Strings | None = None  # short per-part remark ("" when none)
+    fields: tuple[str, ...] = ()  # part fields this check needs for this stage
 
     @property
     def status(self) -> Strings:
@@ -143,16 +130,18 @@ def worse(a: CheckResult, b: CheckResult) -> CheckResult:
     note = None if a.note is None and b.note is None else sel(
         a.note if a.note is not None else "", b.note if b.note is not None else "")
     return CheckResult(a.name, a.kind, sel(a.sense, b.sense), sel(a.need, b.need),
-                       sel(a.has, b.has), sel(a.margin, b.margin), detail, note)
+                       sel(a.has, b.has), sel(a.margin, b.margin), detail, note,
+                       tuple(dict.fromkeys(a.fields + b.fields)))
 
 
 def result(name: CheckName, kind: Kind, sense: str, need: npt.ArrayLike, has: npt.ArrayLike,
-           detail: dict[str, Array] | None = None, note: Strings | None = None) -> CheckResult:
+           detail: dict[str, Array] | None = None, note: Strings | None = None,
+           fields: tuple[str, ...] = ()) -> CheckResult:
     has_a = np.asarray(has, dtype=float)
     need_a = np.broadcast_to(np.asarray(need, dtype=float), has_a.shape).copy()
     margin = at_least(need_a, has_a) if sense == ">=" else at_most(need_a, has_a)
     return CheckResult(name, kind, np.full(has_a.shape, sense), need_a, has_a, margin,
-                       detail or {}, note)
+                       detail or {}, note, fields)
 
 
 @dataclass(frozen=True)
@@ -168,12 +157,15 @@ class CheckTable:
     def statuses(self) -> dict[CheckName, Strings]:
         return {n: r.status for n, r in self.results.items()}
 
-    def names_with(self, status: Status) -> list[list[CheckName]]:
-        """Per part, the check names with the given status (for the shown rows)."""
+    def names_with(self, status: Status, rows: npt.ArrayLike) -> list[list[CheckName]]:
+        """For each of the given rows, the check names with the given status."""
         st = self.statuses()
-        mask = np.stack([st[n] == status for n in self.results], axis=1)
+        idx = np.asarray(rows, dtype=int)
         names = list(self.results)
-        return [[names[j] for j in np.flatnonzero(row)] for row in mask]
+        if not names:
+            return [[] for _ in idx]
+        mask = np.stack([st[n][idx] == status for n in names], axis=1).tolist()
+        return [[n for n, hit in zip(names, row, strict=True) if hit] for row in mask]
 
     def any_status(self, status: Status) -> npt.NDArray[np.bool_]:
         st = self.statuses()
@@ -185,8 +177,9 @@ class CheckTable:
     def rank_margin(self) -> Array:
         """Per part, the smallest margin over the electrical checks (stock left out)."""
         ms = [r.margin for n, r in self.results.items() if n not in NOT_RANKED]
-        with np.errstate(invalid="ignore"):
-            return np.nanmin(np.stack(ms), axis=0) if ms else np.full(len(self.labels), np.inf)
+        if not ms:
+            return np.full(len(self.labels), np.inf)
+        return np.fmin.reduce(np.stack(ms), axis=0)  # type: ignore[no-any-return]  # NaN-skipping
 
     def records(self, i: int) -> dict[str, dict[str, Any]]:
         return {n: r.record(i) for n, r in self.results.items()}
@@ -217,5 +210,5 @@ def run_checks(parts: Parts | Any, spec: Any) -> CheckTable:
     return CheckTable(p.labels, {n: fn(p, spec) for n, fn in fns.items()})
 
 
-__all__ = ["CHECKS", "CHECK_FIELDS", "CheckName", "CheckResult", "CheckTable", "Parts", "Status",
+__all__ = ["CHECKS", "CheckName", "CheckResult", "CheckTable", "Parts", "Status",
            "at_least", "at_most", "result", "run_checks", "worse"]

@@ -22,9 +22,9 @@ def swing(p: Parts, s: Spec) -> CheckResult:
     req = s.requirement
     need = s.minimum["swing_pos"] - req.ref  # type: ignore[operator]
     up = result("swing", "voltage", ">=", need, req.rail_pos - p["out_head_pos_v"] - req.ref,
-                note=np.full(len(p), "toward V+"))
+                note=np.full(len(p), "toward V+"), fields=("out_head_pos_v",))
     down = result("swing", "voltage", ">=", need, req.ref - (req.rail_neg + p["out_head_neg_v"]),
-                  note=np.full(len(p), "toward V-"))
+                  note=np.full(len(p), "toward V-"), fields=("out_head_neg_v",))
     return worse(up, down)
 
 
@@ -33,9 +33,11 @@ def common_mode(p: Parts, s: Spec) -> CheckResult:
     req = s.requirement
     lo, hi = s.common_mode
     up = result("common_mode", "voltage", ">=", hi - req.ref,
-                req.rail_pos - p["cm_head_pos_v"] - req.ref, note=np.full(len(p), "toward V+"))
+                req.rail_pos - p["cm_head_pos_v"] - req.ref, note=np.full(len(p), "toward V+"),
+                fields=("cm_head_pos_v",))
     down = result("common_mode", "voltage", ">=", req.ref - lo,
-                  req.ref - (req.rail_neg + p["cm_head_neg_v"]), note=np.full(len(p), "toward V-"))
+                  req.ref - (req.rail_neg + p["cm_head_neg_v"]), note=np.full(len(p), "toward V-"),
+                  fields=("cm_head_neg_v",))
     return worse(up, down)
 
 
@@ -43,17 +45,17 @@ def slew(p: Parts, s: Spec) -> CheckResult:
     """SR >= 2π·f·Vp,out·m: a sine's steepest slope (Vp·ω at the zero crossing)."""
     need = s.minimum["slew_rate"]
     assert need is not None
-    return result("slew", "slew", ">=", need, p["slew_v_per_s"])
+    return result("slew", "slew", ">=", need, p["slew_v_per_s"], fields=("slew_v_per_s",))
 
 
 def output_current(p: Parts, s: Spec) -> CheckResult:
     """Iout >= m·Vp,out·(1/RL + (1 - vn/vo)/rf): load plus feedback network at the peak."""
     need = s.minimum["output_current"]
     assert need is not None
-    r = result("output_current", "current", ">=", need, p["iout_a"])
+    r = result("output_current", "current", ">=", need, p["iout_a"], fields=("iout_a",))
     if need == 0:  # nothing to drive: no limit to meet, whatever the part
         return CheckResult(r.name, r.kind, r.sense, r.need, r.has,
-                           np.full(len(p), math.inf), r.detail, r.note)
+                           np.full(len(p), math.inf), r.detail, r.note, ())
     return r
 
 
@@ -61,9 +63,9 @@ def supply(p: Parts, s: Spec) -> CheckResult:
     """The rail span must lie inside the part's rated supply range."""
     span = s.requirement.span
     high = result("supply", "voltage", ">=", span, p["supply_max_v"],
-                  note=np.full(len(p), "rated maximum"))
+                  note=np.full(len(p), "rated maximum"), fields=("supply_max_v",))
     low = result("supply", "voltage", "<=", span, p["supply_min_v"],
-                 note=np.full(len(p), "rated minimum"))
+                 note=np.full(len(p), "rated minimum"), fields=("supply_min_v",))
     return worse(high, low)
 
 
@@ -77,9 +79,9 @@ def stock(p: Parts, s: Spec) -> CheckResult:
     known = qty * ch
     lower = qty * np.where(np.isnan(ch), 1.0, ch)
     has = np.where(np.isnan(ch) & (lower < s.requirement.qty), np.nan, lower)
-    r = result("stock", "count", ">=", float(s.requirement.qty), has)
-    return CheckResult(r.name, r.kind, r.sense, r.need, r.has, r.margin,
-                       {"channels_on_hand": known}, r.note)
+    r = result("stock", "count", ">=", float(s.requirement.qty), has,
+               {"channels_on_hand": known}, fields=("qty", "channels"))
+    return r
 
 
 __all__ = ["common_mode", "output_current", "slew", "stock", "supply", "swing"]

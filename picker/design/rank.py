@@ -110,11 +110,11 @@ def select(
 
     def entries(mask: np.ndarray) -> list[Entry]:
         rows = np.flatnonzero(mask)
-        fails = table.names_with("fail")
-        unk = table.names_with("unknown")
-        return [Entry(str(parts.labels[i]), int(i),
-                      fails[i] + (unk[i] if strict else []), unk[i], float(margin[i]))
-                for i in rows]
+        fails = table.names_with("fail", rows)
+        unk = table.names_with("unknown", rows)
+        labels, margins = parts.labels[rows].tolist(), margin[rows].tolist()
+        return [Entry(labels[k], int(i), fails[k] + (unk[k] if strict else []), unk[k],
+                      margins[k]) for k, i in enumerate(rows)]
 
     ok = ~fail & ~unknown
     accepted = _ranked(entries(ok), by, parts)

@@ -96,8 +96,6 @@ def spec_text(spec: Any, explain: bool = False) -> str:
 
 def limit_line(result: Any, i: int, parts: Any | None = None) -> str:
     """``slew: needs >= 1.9 V/µs, has 0.5 V/µs (26%)`` for part i."""
-    from picker.design.checks import CHECK_FIELDS
-
     name, kind = result.name, result.kind
     status = str(result.status[i])
     need = float(result.need[i])
@@ -108,9 +106,9 @@ def limit_line(result: Any, i: int, parts: Any | None = None) -> str:
     if status == "unknown":
         missing = []
         if parts is not None:
-            missing = [f for f in CHECK_FIELDS[name] if f in parts and math.isnan(parts[f][i])]
+            missing = [f for f in result.fields if f in parts and math.isnan(parts[f][i])]
         what = ", ".join(missing) if missing else "a parameter"
-        return f"{name}: unknown, needs {sense} {fmt(need, kind)}; {what} not recorded"
+        return f"{name}: unknown, needs {sense} {fmt(need, kind)}; missing {what}"
     pct = percent(float(result.margin[i]), status == "fail")
     pct = f" ({pct})" if pct else ""
     return f"{name}: needs {sense} {fmt(need, kind)}, has {fmt(has, kind)}{pct}{where}"
@@ -149,6 +147,8 @@ def pick_text(sel: Any) -> str:
         lines.append(f"Accepted ({shown}), by {order}:")
         lines.append(tabulate(rows, headers=["#", "part", "margin", "limited by", "price",
                                              "qty", "ch"], disable_numparse=True))
+    elif len(t) == 0:
+        lines.append("Accepted: none; the stockroom has no parts (`picker parts import` adds some)")
     else:
         lines.append("Accepted: none")
     if sel.unverified:

@@ -103,3 +103,15 @@ def test_nearest_misses_are_computed_moves() -> None:
         assert ok.accepted and not short.accepted
     fv = next(n for n in sel.nearest if n.part == "low voltage f")
     assert all(m.value is None for m in fv.moves)  # nothing but the rails would help
+
+
+def test_parts_with_nothing_recorded_are_unverified_not_passed() -> None:
+    bare = pd.DataFrame({"qty": [3.0]}, index=["bare"])
+    req = REQ.with_changes(offset_max_v=0.1, noise_max_v=1e-3)
+    sel = select(bare, req)
+    assert sel.accepted == [] and sel.rejected == []
+    assert sel.unverified[0].unknown == ["swing", "common_mode", "slew", "gain_accuracy",
+                                         "output_current", "supply", "offset", "noise"]
+    assert sel.table.results["offset"].fields == ("vos_v", "ib_a", "ios_a")  # no drift at 25 °C
+    empty = select(PARTS.iloc[:0], REQ)
+    assert (empty.accepted, empty.rejected, empty.unverified, empty.nearest) == ([], [], [], [])
