@@ -1,0 +1,68 @@
+"""`picker net`: the stage's resistor network from standard E-series values."""
+
+from __future__ import annotations
+
+from typing import Any
+
+import click
+
+from picker.cli.params import QuantityParam, db_option, open_store
+from picker.cli.reqopts import build_requirement, requirement_options
+
+
+class SeriesParam(click.ParamType):
+    """An IEC 60063 series name: E3, E6, E12, E24, E48, E96, E192 (or just 24)."""
+
+    name = "series"
+
+    def convert(self, value: Any, param: click.Parameter | None, ctx: click.Context | None) -> Any:
+        from picker.design.series import parse_series
+        from picker.errors import PickerError
+
+        try:
+            return parse_series(value, "--series")
+        except PickerError as exc:
+            self.fail(str(exc).removeprefix("--series: "), param, ctx)
+
+
+@click.command()
+@requirement_options
+@click.option("--series", type=SeriesParam(), default="E24", show_default=True,
+              help="IEC 60063 series of the resistors: E3 E6 E12 E24 E48 E96 E192")
+@click.option("--tolerance", type=QuantityParam("ratio"), default="1%", show_default=True,
+              help="resistor tolerance for the worst case and the Monte Carlo spread")
+@click.option("--zin", type=QuantityParam("resistance", positive=True),
+              help="smallest input impedance the source may see (inverting, difference)")
+@click.option("--part", metavar="LABEL",
+              help="take the limits (output current, bias and noise currents, Rin, A0, "
+              "GBW) from this part and show its exact closed-loop gain")
+@click.option("--json", "as_json", is_flag=True, help="JSON on stdout (SI base units)")
+@db_option
+def net(stage: dict[str, Any], series: str, tolerance: float, zin: float | None,
+        part: str | None, as_json: bool, db: str | None) -> None:
+    """Design the stage's resistor network from standard values.
+
+    Searches every pair of the series' values inside the limits (output load,
+    bias-current offset, noise and input-resistance shares of their budgets, --zin)
+    for the smallest gain error, lower resistances winning ties, then shows the worst
+    case and a Monte Carlo spread for the resistor tolerance. --rf pins the feedback
+    resistor. Example:
+
+        picker net --topology inverting --gain 4.7 --vin 1V --freq 20kHz --rails ±12
+    """
+    from picker.design.network import design_network, exact_gain
+    from picker.report.network import render
+    from picker.report.tables import to_json
+
+    req = build_requirement(stage)
+    row = open_store(db).get(part) if part else None
+    network = design_network(req, row, series=series, tolerance=tolerance,  # type: ignore[arg-type]
+                             zin_ohm=zin, feedback_ohm=stage.get("rf"))
+    if as_json:
+        click.echo(to_json(network.as_json()))
+        for c in req.cautions:
+            click.echo(c, err=True)
+        return
+    exact = exact_gain(req, network.network, row) if row is not None else None
+    click.echo(render(network, part=part, exact=exact, freq_hz=req.freq_hz,
+                      cautions=req.cautions))
