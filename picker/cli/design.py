@@ -1,0 +1,92 @@
+"""`picker spec`, `picker pick`, `picker why`: a stage against the parts in stock."""
+
+from __future__ import annotations
+
+from typing import Any
+
+import click
+
+from picker.cli.params import db_option, open_store
+from picker.cli.reqopts import build_requirement, requirement_options
+
+
+def _cautions_to_stderr(cautions: list[str]) -> None:
+    # with --json, stdout stays machine-readable; the caution still reaches the person
+    for c in cautions:
+        click.echo(c, err=True)
+
+
+@click.command()
+@requirement_options
+@click.option("--explain", is_flag=True, help="each minimum with its formula and numbers")
+@click.option("--json", "as_json", is_flag=True, help="JSON on stdout (SI base units)")
+def spec(stage: dict[str, Any], explain: bool, as_json: bool) -> None:
+    """The minimum op-amp specifications a stage needs.
+
+    Noise and signal gain, slew rate, gain-bandwidth product, open-loop gain, input
+    resistance, output swing, output current, common-mode range and supply span,
+    including the design margin. Example:
+
+        picker spec --topology inverting --gain 10 --vin 0.5Vpk --freq 20kHz --rails ±12
+    """
+    from picker.design.spec import minimum_specs
+    from picker.report.checks import spec_text
+    from picker.report.tables import to_json
+
+    s = minimum_specs(build_requirement(stage))
+    if as_json:
+        click.echo(to_json(s.to_json()))
+        _cautions_to_stderr(s.cautions)
+    else:
+        click.echo(spec_text(s, explain))
+
+
+@click.command()
+@requirement_options
+@click.option("--by", type=click.Choice(["margin", "price", "stock"]), default="margin",
+              show_default=True, help="order of the accepted parts")
+@click.option("--top", type=click.IntRange(min=1), help="show only the best N accepted parts")
+@click.option("--strict", is_flag=True, help="reject parts with unknown parameters")
+@click.option("--json", "as_json", is_flag=True, help="JSON on stdout (SI base units)")
+@db_option
+def pick(stage: dict[str, Any], by: str, top: int | None, strict: bool, as_json: bool,
+         db: str | None) -> None:
+    """Check every part in stock against a stage; best first, rejections explained.
+
+    A part is accepted when every check passes, rejected when one fails, unverified
+    when a parameter it needs is unknown. When nothing passes, the nearest misses say
+    how far the stage would have to move for each. Example:
+
+        picker pick --topology non-inverting --gain 20 --vin 0.25V --freq 20kHz --rails ±12
+    """
+    from picker.design.rank import select
+    from picker.report.checks import pick_text
+    from picker.report.tables import to_json
+
+    req = build_requirement(stage)
+    frame = open_store(db).parts_frame()
+    sel = select(frame, req, by=by, top=top, strict=strict)  # type: ignore[arg-type]
+    if as_json:
+        click.echo(to_json(sel.to_json()))
+        _cautions_to_stderr(sel.cautions)
+    else:
+        click.echo(pick_text(sel))
+
+
+@click.command()
+@click.argument("part")
+@requirement_options
+@db_option
+def why(part: str, stage: dict[str, Any], db: str | None) -> None:
+    """The full check sheet of one PART for a stage: each check with formula and numbers."""
+    from picker.design.checks import Parts
+    from picker.design.rank import check_part
+    from picker.report.checks import why_text
+    from picker.store import Condition
+
+    req = build_requirement(stage)
+    store = open_store(db)
+    store.get(part)  # NotFound, with a hint, when the label is not in the stockroom
+    parts = Parts(store.parts_frame(conditions=[Condition("label", "=", part)]))
+    spec_, table = check_part(parts, req)
+    click.echo(why_text(spec_, table, parts))
