@@ -48,9 +48,13 @@ def spec(stage: dict[str, Any], explain: bool, as_json: bool) -> None:
 @click.option("--top", type=click.IntRange(min=1), help="show only the best N accepted parts")
 @click.option("--strict", is_flag=True, help="reject parts with unknown parameters")
 @click.option("--json", "as_json", is_flag=True, help="JSON on stdout (SI base units)")
+@click.option("--reserve", is_flag=True,
+              help="take the top accepted part for --for PROJECT (asks first)")
+@click.option("--for", "project", metavar="PROJECT", help="the project --reserve takes parts for")
+@click.option("--yes", is_flag=True, help="with --reserve: do not ask for confirmation")
 @db_option
 def pick(stage: dict[str, Any], by: str, top: int | None, strict: bool, as_json: bool,
-         db: str | None) -> None:
+         reserve: bool, project: str | None, yes: bool, db: str | None) -> None:
     """Check every part in stock against a stage; best first, rejections explained.
 
     A part is accepted when every check passes, rejected when one fails, unverified
@@ -63,14 +67,21 @@ def pick(stage: dict[str, Any], by: str, top: int | None, strict: bool, as_json:
     from picker.report.checks import pick_text
     from picker.report.tables import to_json
 
+    if reserve and not project:
+        raise click.UsageError("--reserve needs --for PROJECT, the project the parts go to")
     req = build_requirement(stage)
-    frame = open_store(db).parts_frame()
+    store = open_store(db)
+    frame = store.parts_frame()
     sel = select(frame, req, by=by, top=top, strict=strict)  # type: ignore[arg-type]
     if as_json:
         click.echo(to_json(sel.to_json()))
         _cautions_to_stderr(sel.cautions)
     else:
         click.echo(pick_text(sel))
+    if reserve:
+        from picker.cli.stock import reserve_top
+
+        reserve_top(store, sel, project, yes, quiet_stdout=as_json)
 
 
 @click.command()

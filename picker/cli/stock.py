@@ -171,3 +171,25 @@ def low(below: int | None, fmt: str, db: str | None) -> None:
     else:
         click.echo(low_table(rows))
         click.echo(f"{len(rows)} part(s) to reorder", err=True)
+
+
+def reserve_top(store: Any, sel: Any, project: str | None, yes: bool, quiet_stdout: bool) -> None:
+    """`picker pick --reserve`: take the top accepted part for the project.
+
+    Packages = channels needed (--qty) / channels per package, rounded up. Asks for
+    confirmation unless yes; with JSON output every word goes to stderr.
+    """
+    from picker.errors import Conflict
+    from picker.store import stock as ops
+
+    if not project:
+        raise BadValue("--for", "", "is needed with --reserve: the project the parts go to")
+    if not sel.accepted:
+        raise Conflict("no part is accepted for this stage; nothing reserved")
+    label = sel.accepted[0].part
+    per = store.get(label)["channels"]
+    n = ops.packages_needed(sel.requirement.qty, per)
+    if not yes:
+        click.confirm(f"take {n} of {label} for {project}?", abort=True, err=True)
+    mv = ops.reserve(store, label, n, project, who(None))
+    click.echo(f"reserved {n} of {label} for {project}; {mv.qty_after} left", err=quiet_stdout)

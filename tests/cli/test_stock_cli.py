@@ -221,3 +221,43 @@ def test_a_newer_stockroom_is_refused_even_by_upgrade(tmp_path: Path) -> None:
     for cmd in (["db", "upgrade"], ["stock", "low"], ["db", "backup", str(tmp_path / "b.db")]):
         res = run(*cmd, "--db", db, ok=False)
         assert res.exit_code == 2 and "made by a newer picker" in res.stderr, cmd
+
+
+# -- pick --reserve ----------------------------------------------------------------------------
+STAGE = ["--topology", "non-inverting", "--gain", "20", "--vin", "0.25V", "--freq", "20kHz",
+         "--rails", "±12", "--qty", "3"]
+
+
+def test_pick_reserve_takes_the_top_part_after_asking(demo_db: str) -> None:
+    import math
+
+    sel = json.loads(run("pick", *STAGE, "--json", "--db", demo_db).stdout)
+    top = sel["accepted"][0]["part"]
+    with DEMO.open(encoding="utf-8") as f:
+        per = {r["label"]: int(r["channels"]) for r in csv.DictReader(f)}[top]
+    # 3 channels needed / channels per package, rounded up (common practice, no source)
+    n = math.ceil(3 / per)
+    start = demo_qty()[top]
+    args = ["pick", *STAGE, "--reserve", "--for", "amp-7", "--db", demo_db]
+    no = CliRunner().invoke(cli, args, input="n\n")
+    assert no.exit_code == 1 and "nothing was changed" in no.stderr
+    assert f"take {n} of {top} for amp-7? [y/N]" in no.stderr
+    assert json.loads(run("stock", "log", "--json", "--db", demo_db).stdout) == []
+    yes = CliRunner().invoke(cli, args, input="y\n", catch_exceptions=False)
+    assert yes.exit_code == 0, yes.output
+    assert f"reserved {n} of {top} for amp-7; {start - n} left" in yes.stdout
+    # --yes with --json: no question, stdout stays JSON, the receipt goes to stderr
+    quiet = run("pick", *STAGE, "--json", "--reserve", "--yes", "--for", "amp-8", "--db",
+                demo_db)
+    assert json.loads(quiet.stdout)["accepted"][0]["part"] == top
+    assert f"reserved {n} of {top} for amp-8; {start - 2 * n} left" in quiet.stderr
+    moves = json.loads(run("stock", "log", top, "--json", "--db", demo_db).stdout)
+    assert [(m["project"], m["delta"], m["reason"]) for m in moves] == [
+        ("amp-7", -n, "take"), ("amp-8", -n, "take")]
+
+
+def test_pick_reserve_needs_a_project(demo_db: str) -> None:
+    res = run("pick", *STAGE, "--reserve", "--yes", "--db", demo_db, ok=False)
+    assert res.exit_code == 2 and "--reserve needs --for PROJECT" in res.stderr
+    assert res.stdout == ""
+    assert json.loads(run("stock", "log", "--json", "--db", demo_db).stdout) == []
