@@ -74,6 +74,11 @@ class PickerGroup(click.Group):
         This is the one place errors become messages: a PickerError or a click usage
         error is one line on stderr and exit code 2; anything else is a bug (exit 1).
         """
+        given = sys.argv[1:] if args is None else list(args)
+        for i, arg in enumerate(given, start=1):
+            if "\x00" in str(arg):  # a shell cannot pass one; a program calling us can
+                _error(f"argument {i} contains a NUL character; remove it")
+                return EXIT_BAD_INPUT
         try:
             rv = super().main(args, prog_name, standalone_mode=False, **extra)
         except click.exceptions.Exit as exc:

@@ -421,6 +421,8 @@ def read_design(path: str | Path) -> dict[str, Any]:
         raise BadRequirement(f"{where}not valid TOML: {exc}") from None
     except OSError as exc:
         raise BadValue("--design", str(path), f"cannot be read ({exc.strerror})") from None
+    except ValueError:  # a NUL in the path, or bytes that are not UTF-8
+        raise BadValue("--design", str(path)[:60], "is not a readable UTF-8 TOML file") from None
     if "stage" in data and isinstance(data["stage"], Mapping):
         data = {**{k: v for k, v in data.items() if k != "stage"}, **data["stage"]}
     return {normal_key(k, where): v for k, v in data.items()}
