@@ -102,6 +102,7 @@ def test_sqlite_backup_while_another_process_writes(tmp_path: Path) -> None:
     while proc.is_alive() and len(files) < 6:
         files.append(tmp_path / f"b{len(files)}.db")
         backup(source, files[-1])
+        time.sleep(0.1)  # spread the backups over the writer's run
     report = out.get(timeout=60)
     proc.join(timeout=10)
     elapsed = time.perf_counter() - t0
