@@ -7,7 +7,7 @@ from typing import Any
 import click
 
 from picker.cli.params import QuantityParam, db_option, open_store
-from picker.cli.reqopts import build_requirement, requirement_options
+from picker.cli.reqopts import build_requirement, pinned_rf, requirement_options
 
 
 class SeriesParam(click.ParamType):
@@ -54,10 +54,10 @@ def net(stage: dict[str, Any], series: str, tolerance: float, zin: float | None,
     from picker.report.network import render
     from picker.report.tables import to_json
 
-    req = build_requirement(stage)
+    req = build_requirement(stage, with_network=False)
     row = open_store(db).get(part) if part else None
     network = design_network(req, row, series=series, tolerance=tolerance,  # type: ignore[arg-type]
-                             zin_ohm=zin, feedback_ohm=stage.get("rf"))
+                             zin_ohm=zin, feedback_ohm=pinned_rf(stage, req))
     if as_json:
         click.echo(to_json(network.as_json()))
         for c in req.cautions:

@@ -46,7 +46,7 @@ _OPTIONS: tuple[tuple[str, str, Any, str], ...] = (
     ("margin", "--margin", click.FloatRange(min=1.0),
      "design margin: needs x margin, allowed errors / margin (default 1.25; 1 = bare minimums)"),
     ("rf", "--rf", QuantityParam("resistance", positive=True),
-     "feedback resistor of the ideal-ratio network (default 10k)"),
+     "pin the feedback resistor of the E-series network (default: designed, see picker net)"),
 )
 
 KEYS: tuple[str, ...] = tuple(name for name, *_ in _OPTIONS) + ("mains",)
@@ -70,12 +70,34 @@ def requirement_options(f: F) -> F:
     return cmd  # type: ignore[no-any-return]
 
 
-def build_requirement(stage: dict[str, Any]) -> Any:
-    """The Requirement named by the options (and the design file); PickerError if bad."""
+def build_requirement(stage: dict[str, Any], *, with_network: bool = True) -> Any:
+    """The Requirement named by the options (and the design file); PickerError if bad.
+
+    Unless the stage names its own network, it gets the E-series network of
+    picker.design.network (--rf pins its feedback resistor); ``with_network=False``
+    gives the bare requirement (``picker net`` designs the network itself).
+    """
     from picker.design.requirement import requirement_from
 
     options = {k.replace("_", "-"): v for k, v in stage.items() if k != "design"}
-    return requirement_from(options, stage.get("design"))
+    req = requirement_from(options, stage.get("design"))
+    if not with_network:
+        return req
+    from picker.design.network import with_designed_network
+
+    return with_designed_network(req, feedback_ohm=pinned_rf(stage, req))
+
+
+def pinned_rf(stage: dict[str, Any], req: Any) -> float | None:
+    """The feedback resistor the user pinned (--rf, or rf in the design file), if any."""
+    if stage.get("rf") is not None:
+        return float(stage["rf"])
+    if stage.get("design"):
+        from picker.design.requirement import read_design
+
+        if "rf" in read_design(stage["design"]):
+            return float(req.rf_ohm)
+    return None
 
 
 __all__ = ["KEYS", "build_requirement", "requirement_options"]

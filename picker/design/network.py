@@ -4,11 +4,12 @@ design_network(req, part) searches every pair of standard values inside the wind
 at once (numpy broadcasting, no Python loop over values): (rf, rg) for the inverting
 and non-inverting stages, (r2, r1) with matched ratios r4 = r2, r3 = r1 for the
 difference stage. A pair is admissible when it keeps the limits of
-picker.design.netmodel (output load, bias-current offset, noise and input-resistance
+picker.design.netlimits (output load, bias-current offset, noise and input-resistance
 shares of their budgets, minimum input impedance); the optimum is the admissible pair
 with the smallest gain error, ties (within 1e-9) going to the lower resistances, which
 keep noise and offset lowest. When no single value meets the ratio share of the
-gain-error budget, two standard resistors in series or parallel are tried for the leg.
+gain-error budget, two standard resistors in series or parallel are tried for the leg
+(the lowest feedback resistor whose leg meets the share, else the closest).
 The result carries the resistor tolerance analysis of picker.design.tolerance.
 """
 
@@ -148,7 +149,7 @@ def _design_pair(req: Requirement, ctx: Context, series: es.SeriesName, tol: flo
                      "searched.")
     share = nm.RATIO_SHARE * req.gain_error / req.margin
     if best_err > share:
-        combo = _best_combo(ctx, fv, v)
+        combo = _best_combo(ctx, fv, v, share)
         if combo is not None and combo[2] < best_err - TIE:
             notes.append(
                 f"No single {series} pair comes within {fmt(share, 'ratio')} of the gain (the "
@@ -182,9 +183,14 @@ def _first_best(err: Array) -> int:
     return int(np.flatnonzero(err <= best + TIE)[0])
 
 
-def _best_combo(ctx: Context, fv: Array, v: Array) -> tuple[float, Slot, float] | None:
-    """Best pair with feedback from ``fv`` and the leg made of two values of ``v`` in
-    series or parallel (for each feedback value the two sums nearest the ideal leg)."""
+def _best_combo(ctx: Context, fv: Array, v: Array, share: float
+                ) -> tuple[float, Slot, float] | None:
+    """A pair with feedback from ``fv`` and the leg made of two values of ``v`` in series
+    or parallel (for each feedback value the two combinations nearest the ideal leg).
+
+    Two-resistor legs come close to almost any ratio, so their errors hardly ever tie:
+    among those within ``share`` the lowest feedback resistor wins (lowest noise and
+    offset); when none is within it, the smallest error."""
     req = ctx.req
     t, rs, gain = req.topology, req.source_ohm, req.gain
     ii, jj = np.triu_indices(len(v))
@@ -204,8 +210,12 @@ def _best_combo(ctx: Context, fv: Array, v: Array) -> tuple[float, Slot, float] 
     if not ok.any():
         return None
     err = np.where(ok, np.abs(model.gain / gain - 1), np.inf)
-    flat = _first_best(err)
-    r, c = np.unravel_index(flat, err.shape)
+    meets = (err <= share).any(axis=1)
+    if meets.any():  # the lowest feedback resistor whose leg meets the share
+        r = int(np.flatnonzero(meets)[0])
+        c = int(np.argmin(err[r]))
+    else:
+        r, c = (int(x) for x in np.unravel_index(_first_best(err), err.shape))
     idx = cand[r, c]
     how: How = "series" if kind[idx] == 0 else "parallel"
     fb = nm.PAIR_NAMES[t][1]
@@ -333,4 +343,17 @@ def exact_gain(req: Requirement, network: Mapping[str, float],
     return dc, top
 
 
-__all__ = ["COMP_MIN_IMPROVEMENT", "Network", "TIE", "design_network", "exact_gain"]
+def with_designed_network(req: Requirement, part: Mapping[str, Any] | nm.PartData | None = None,
+                          *, series: es.SeriesName = "E24",
+                          feedback_ohm: float | None = None) -> Requirement:
+    """``req`` with its network designed from standard values (as ``picker net`` shows
+    it), or ``req`` itself when it names its own network. This is the network the
+    checks, the rankings and the waveform prediction use instead of an ideal ratio."""
+    if req.network is not None:
+        return req
+    net = design_network(req, part, series=series, feedback_ohm=feedback_ohm)
+    return req.with_changes(network=dict(net.network))
+
+
+__all__ = ["COMP_MIN_IMPROVEMENT", "Network", "TIE", "design_network", "exact_gain",
+           "with_designed_network"]

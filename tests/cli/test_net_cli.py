@@ -124,3 +124,21 @@ def test_caution_goes_to_stderr_with_json(db: str) -> None:
 def test_bad_input_is_one_line_and_exit_2(args: list[str], word: str, db: str) -> None:
     r = fails("net", *args, *STAGE, "--db", db)
     assert word in r.stderr
+
+
+def test_spec_pick_and_why_use_the_designed_network(db: str, tmp_path) -> None:  # type: ignore[no-untyped-def]
+    from picker.quantities import fmt
+
+    stage = ["--topology", "inverting", "--gain", "6.8", *STAGE]
+    js = json.loads(run("net", *stage, "--json", "--db", db).stdout)
+    shown = ", ".join(f"{k} {fmt(v, 'resistance')}" for k, v in js["resistors"].items())
+    assert f"network: {shown}" in run("spec", *stage).stdout
+    sheet = run("why", "bip-gp-a", *stage, "--db", db).stdout
+    assert "gain_accuracy" in sheet
+    # a design file's rf pins the feedback resistor like --rf does
+    f = tmp_path / "stage.toml"
+    f.write_text('topology = "inverting"\ngain = 6.8\nvin = "0.5Vpk"\nfreq = "20kHz"\n'
+                 'rails = "±12"\nrf = "33k"\n', encoding="utf-8")
+    pinned = json.loads(run("net", "--design", str(f), "--json", "--db", db).stdout)
+    assert pinned["resistors"]["rf"] == 33e3
+    assert "network: rf 33 kΩ" in run("spec", "--design", str(f)).stdout
