@@ -158,6 +158,17 @@ def _design_pair(req: Requirement, ctx: Context, series: es.SeriesName, tol: flo
                 f"{fb} position is two {series} resistors in {combo[1].how}, for "
                 f"{fmt(combo[2], 'ratio')}.")
             best, best_err = (combo[0], combo[1]), combo[2]
+        elif best_err > req.gain_error and not _reachable(ctx, fv):
+            where = ("--zin" if ctx.zin_ohm and _reachable(Context(req, ctx.part), fv)
+                     else "--source" if req.source_ohm else "--gain")
+            raise BadRequirement(
+                f"{where}: no network of {fmt(nm.WINDOW_OHM[0], 'resistance')}..."
+                f"{fmt(nm.WINDOW_OHM[1], 'resistance')} resistors reaches {'an' if t[0] in 'aeiou' else 'a'} {t} gain of "
+                f"{gain:g} V/V" + (f" with an input resistor of at least "
+                                   f"{fmt(ctx.zin_ohm, 'resistance')}" if ctx.zin_ohm else "")
+                + (f" from a {fmt(req.source_ohm, 'resistance')} source" if req.source_ohm
+                   else "") + f" (closest {float(model.gain.flat[_first_best(err)]):.4g} V/V); "
+                "lower --zin or --source, change the gain, or buffer the input")
         else:
             notes.append(f"The nominal ratio error {fmt(best_err, 'ratio')} exceeds its "
                          f"{fmt(share, 'ratio')} share of the gain-error budget; a finer "
@@ -174,6 +185,16 @@ def _design_pair(req: Requirement, ctx: Context, series: es.SeriesName, tol: flo
         slots.append(rp_slot)
         net["rp"] = rp_slot.ohms
     return _finish(req, ctx, series, tol, slots, net, notes, seed)
+
+
+def _reachable(ctx: Context, fv: Array) -> bool:
+    """Whether some feedback value's ideal leg (exact ratio) lies inside the window and
+    above --zin: if not, no series, however fine, gets close."""
+    req = ctx.req
+    g, rs = req.gain, req.source_ohm
+    leg = fv / (g - 1) if req.topology == "non-inverting" else fv / g - rs
+    lo = max(nm.WINDOW_OHM[0], ctx.zin_ohm or 0.0)
+    return bool(((leg >= lo) & (leg <= nm.WINDOW_OHM[1])).any())
 
 
 def _first_best(err: Array) -> int:
@@ -206,7 +227,8 @@ def _best_combo(ctx: Context, fv: Array, v: Array, share: float
     legs = vals[cand]
     model, checks = check_pairs(ctx, a, legs)
     ok = np.logical_and.reduce([m for _, m in checks]) if checks else np.ones(a.shape, bool)
-    ok = np.broadcast_to(ok, a.shape) & (target[:, None] > 0)
+    lo, hi = nm.WINDOW_OHM
+    ok = np.broadcast_to(ok, a.shape) & (target[:, None] > 0) & (legs >= lo) & (legs <= hi)
     if not ok.any():
         return None
     err = np.where(ok, np.abs(model.gain / gain - 1), np.inf)
@@ -309,6 +331,10 @@ def _finish(req: Requirement, ctx: Context, series: es.SeriesName, tol: float,
 def _tolerance_notes(req: Requirement, n: Network) -> list[str]:
     """Say when the gain-error budget is tighter than the resistor tolerance allows."""
     budget = req.gain_error
+    if abs(n.gain_error) > budget:
+        return [f"The nominal gain {n.gain:.5g} V/V misses {n.target_gain:.5g} V/V by "
+                f"{fmt(abs(n.gain_error), 'ratio')}, beyond the {fmt(budget, 'ratio')} "
+                "gain-error budget before any tolerance."]
     if not n.slots or n.tolerance == 0 or n.worst_case_error <= budget:
         return []
     need = tolerance_needed(n.gain_error, n.worst_case_error, n.tolerance, budget)

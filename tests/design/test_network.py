@@ -352,3 +352,16 @@ def test_pinned_feedback_resistor_searches_only_the_leg() -> None:
     assert net.network["rf"] == 33e3 and is_iec_member(33e3, "E24")
     single = min(abs(33e3 / b / 4.7 - 1) for b in eseries_values("E24"))
     assert abs(net.gain_error) <= single + TIE
+
+
+@pytest.mark.parametrize("kw,zin,word", [
+    # by hand: rf <= 10 MΩ, so rf/(1.5 MΩ + rg) < 6.67 < 10
+    ({"source_ohm": 1.5e6}, None, "--source"),
+    # by hand: rg >= 100 kΩ and rf <= 10 MΩ cap the gain at 100 < 1000
+    ({"vin_pk": 1e-3}, 100e3, "--zin"),
+])
+def test_unreachable_gain_is_a_clear_error(kw: dict, zin: float | None, word: str) -> None:
+    gain = 1000.0 if zin else 10.0
+    with pytest.raises(BadRequirement) as exc:
+        design_network(req("inverting", gain, **kw), None, zin_ohm=zin)
+    assert str(exc.value).startswith(word) and "\n" not in str(exc.value)
