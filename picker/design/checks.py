@@ -32,7 +32,8 @@ Array = npt.NDArray[np.float64]
 Strings = npt.NDArray[np.str_]
 
 # checks left out of the ranking margin (logistics, not electrical headroom)
-NOT_RANKED: frozenset[str] = frozenset({"stock"})
+# stock is logistics and supply is a rating (runs on these rails or not): neither is headroom
+NOT_RANKED: frozenset[str] = frozenset({"stock", "supply"})
 
 class Parts(Mapping[str, Array]):
     """The numeric columns of a parts table as float arrays (NaN = unknown)."""
@@ -175,7 +176,7 @@ class CheckTable:
         return out
 
     def rank_margin(self) -> Array:
-        """Per part, the smallest margin over the electrical checks (stock left out)."""
+        """Per part, the smallest margin over the checks that measure headroom (not stock, supply)."""
         ms = [r.margin for n, r in self.results.items() if n not in NOT_RANKED]
         if not ms:
             return np.full(len(self.labels), np.inf)

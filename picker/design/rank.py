@@ -5,7 +5,8 @@ A part is *accepted* when every check passes, *rejected* when any check fails, a
 naming the unknown checks as failures). Accepted parts are ranked
 
 - ``margin`` (default): by their smallest margin over the electrical checks, largest
-  first (stock is left out of this margin: it is logistics, not headroom);
+  first (stock and supply are left out of this margin: logistics and a rating, not
+  headroom in the stage);
 - ``price``: cheapest first (unknown price last), then by margin;
 - ``stock``: most channels on hand first, then by margin.
 
