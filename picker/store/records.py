@@ -80,13 +80,14 @@ def convert(name: str, raw: object, where: str, *, from_csv: bool = False) -> ob
         if name == "qty":
             return 0
         return None
+    number: float | str = text
     try:  # fast path: a plain number in the column's SI unit (what export writes)
-        number: float | str = float(text)
+        as_float = float(text)
     except ValueError:
-        number = text
+        pass
     else:
-        if not math.isfinite(number):
-            number = text  # let the parser explain it
+        if math.isfinite(as_float):
+            number = as_float  # else let the parser explain it
     value = parse(number, f.kind, where, allow_negative=f.signed or None, allow_zero=not f.positive)  # type: ignore[arg-type]
     if f.kind == "count":
         if value > 1e9:

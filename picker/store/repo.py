@@ -291,11 +291,11 @@ class Store:
             done = 0
             try:
                 for i in range(0, len(new), CHUNK):
-                    chunk = [_full(r) for r in new[i : i + CHUNK]]
-                    conn.execute(insert(parts), chunk)
-                    done += len(chunk)
+                    fresh = [_full(r) for r in new[i : i + CHUNK]]
+                    conn.execute(insert(parts), fresh)
+                    done += len(fresh)
                     if progress:
-                        progress(len(chunk))
+                        progress(len(fresh))
                 if old:
                     keys = [k for k in old[0] if k != "label"]
                     stmt = (
@@ -304,13 +304,13 @@ class Store:
                         .values({k: bindparam(f"b_{k}") for k in keys})
                     )
                     for i in range(0, len(old), CHUNK):
-                        chunk = [
+                        changed = [
                             {f"b_{k}": v for k, v in _full(r).items() if k == "label" or k in keys}
                             for r in old[i : i + CHUNK]
                         ]
-                        conn.execute(stmt, chunk)
+                        conn.execute(stmt, changed)
                         if progress:
-                            progress(len(chunk))
+                            progress(len(changed))
             except IntegrityError as exc:
                 raise Conflict(_integrity_message(exc, "")) from None
             if dry_run:
