@@ -174,6 +174,11 @@ def _design_pair(req: Requirement, ctx: Context, series: es.SeriesName, tol: flo
                          f"{fmt(share, 'ratio')} share of the gain-error budget; a finer "
                          "series (--series E96) gets closer.")
     rf, leg = best
+    if t in ("inverting", "difference") and req.source_ohm >= leg.ohms:
+        notes.append(f"The {fmt(req.source_ohm, 'resistance')} source is most of the input leg "
+                     f"(with {fb} {fmt(leg.ohms, 'resistance')}): the gain follows its accuracy, "
+                     "which the tolerance figures do not include; --zin or --rf make the leg "
+                     "larger.")
     slots = [Slot.single(fa, rf), leg]
     if t == "difference":
         slots = [Slot("r1", leg.ohms, leg.parts, leg.how), Slot.single("r2", rf),
