@@ -45,7 +45,7 @@ def spec(stage: dict[str, Any], explain: bool, as_json: bool) -> None:
 @requirement_options
 @click.option("--by", type=click.Choice(["margin", "price", "stock"]), default="margin",
               show_default=True, help="order of the accepted parts")
-@click.option("--top", type=click.IntRange(min=1), help="show only the best N accepted parts")
+@click.option("--top", type=click.IntRange(min=1, max=1_000_000_000), help="show only the best N accepted parts")
 @click.option("--strict", is_flag=True, help="reject parts with unknown parameters")
 @click.option("--json", "as_json", is_flag=True, help="JSON on stdout (SI base units)")
 @click.option("--reserve", is_flag=True,

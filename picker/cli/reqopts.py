@@ -42,7 +42,7 @@ _OPTIONS: tuple[tuple[str, str, Any, str], ...] = (
     ("noise_max", "--noise-max", str,
      "largest output RMS noise, e.g. 100uV (default: not checked)"),
     ("temp", "--temp", str, "ambient, 85C or a range -40..85C (default 25C; drift from 25C)"),
-    ("qty", "--qty", click.IntRange(min=1), "channels needed (default 1)"),
+    ("qty", "--qty", click.IntRange(min=1, max=1_000_000_000), "channels needed (default 1)"),
     ("margin", "--margin", click.FloatRange(min=1.0),
      "design margin: needs x margin, allowed errors / margin (default 1.25; 1 = bare minimums)"),
     ("rf", "--rf", QuantityParam("resistance", positive=True),

@@ -14,7 +14,7 @@ from picker.errors import BadValue
 
 F = TypeVar("F", bound=Callable[..., Any])
 
-_QTY = click.IntRange(min=1)
+_QTY = click.IntRange(min=1, max=1_000_000_000)
 
 
 @contextmanager
@@ -113,7 +113,7 @@ def add(part: str, qty: int, by: str | None, note: str | None, db: str | None) -
 
 @stock.command()
 @click.argument("part")
-@click.argument("qty", type=click.IntRange(min=0))
+@click.argument("qty", type=click.IntRange(min=0, max=1_000_000_000))
 @by_option
 @note_option
 @db_option
@@ -152,7 +152,7 @@ def log(part: str | None, since: str | None, fmt: str, db: str | None) -> None:
 
 
 @stock.command()
-@click.option("--below", type=click.IntRange(min=0), metavar="N",
+@click.option("--below", type=click.IntRange(min=0, max=1_000_000_000), metavar="N",
               help="every part with fewer than N on hand, whatever its reorder level")
 @format_option
 @db_option
