@@ -365,3 +365,15 @@ def test_unreachable_gain_is_a_clear_error(kw: dict, zin: float | None, word: st
     with pytest.raises(BadRequirement) as exc:
         design_network(req("inverting", gain, **kw), None, zin_ohm=zin)
     assert str(exc.value).startswith(word) and "\n" not in str(exc.value)
+
+
+@pytest.mark.parametrize("name", ["E3", "E6", "E12", "E24", "E48", "E96", "E192"])
+def test_series_tables_equal_iec_60063(name: str) -> None:
+    from picker.design.series import is_member, values
+
+    ours = values(name, 1.0, 10e6)  # type: ignore[arg-type]
+    ref = eseries_values(name, 1.0, 10e6)
+    # reference: IEC 60063 via the eseries package; decimal values, tolerance 1e-12
+    assert_allclose(ours, ref, rtol=1e-12)
+    assert all(is_member(v, name) for v in ref)  # type: ignore[arg-type]
+    assert not is_member(float(ref[5]) * 1.003, name)  # type: ignore[arg-type]
