@@ -48,6 +48,7 @@ def net(stage: dict[str, Any], series: str, tolerance: float, zin: float | None,
     case and a Monte Carlo spread for the resistor tolerance. --rf pins the feedback
     resistor. Example:
 
+    \b
         picker net --topology inverting --gain 4.7 --vin 1V --freq 20kHz --rails ±12
     """
     from picker.design.network import design_network, exact_gain
