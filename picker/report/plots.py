@@ -43,15 +43,26 @@ def time_unit(span_s: float) -> tuple[float, str]:
     return _TIME_UNITS[-1]
 
 
+def parse_size(text: str, field: str = "--size") -> tuple[int, int]:
+    """'1000x600' (pixels, width x height) -> (1000, 600)."""
+    from picker.errors import BadValue
+
+    parts = str(text).lower().replace("×", "x").split("x")
+    try:
+        w, h = (int(p.strip()) for p in parts)
+    except ValueError:
+        raise BadValue(field, text, "is not a size in pixels; write WIDTHxHEIGHT, "
+                       "e.g. 1000x600") from None
+    if not (200 <= w <= 10000 and 150 <= h <= 10000):
+        raise BadValue(field, text, "is outside 200x150 .. 10000x10000 pixels")
+    return w, h
+
+
 def _figure(size_px: tuple[int, int], **kw: Any) -> Figure:
     from matplotlib.backends.backend_agg import FigureCanvasAgg
     from matplotlib.figure import Figure
 
     w, h = size_px
-    if w < 200 or h < 150:
-        from picker.errors import BadValue
-
-        raise BadValue("--size", f"{w}x{h}", "is too small to read; use at least 200x150 pixels")
     fig = Figure(figsize=(w / DPI, h / DPI), dpi=DPI, layout="constrained", **kw)
     FigureCanvasAgg(fig)
     return fig
@@ -98,8 +109,11 @@ def wave_figure(waves: Waves, i: int, size_px: tuple[int, int] = WAVE_SIZE) -> F
 
 
 def grid_figure(waves: Waves, indices: list[int], size_px: tuple[int, int] = GRID_SIZE,
-                heading: str | None = None) -> Figure:
-    """The predicted outputs of several parts side by side, on one voltage scale."""
+                heading: str | None = None, names: list[str] | None = None) -> Figure:
+    """The predicted outputs of several parts side by side, on one voltage scale.
+
+    ``names`` replaces the part labels in the panel titles (e.g. with rank and status).
+    """
     n = max(len(indices), 1)
     cols = 1 if n == 1 else 2 if n <= 4 else 3
     rows = math.ceil(n / cols)
@@ -109,7 +123,9 @@ def grid_figure(waves: Waves, indices: list[int], size_px: tuple[int, int] = GRI
         if k >= len(indices):
             ax.set_visible(False)
             continue
-        draw_wave(ax, waves, indices[k], legend=(k == 0))
+        i = indices[k]
+        name = waves.labels[i] if names is None else names[k]
+        draw_wave(ax, waves, i, legend=(k == 0), title=f"{name}\n{_limits_text(waves, i)}")
     d = waves.drive
     fig.suptitle(heading or (
         f"Top candidates: {fmt(d.vin_pk, 'voltage')} peak sine in at "
@@ -163,4 +179,5 @@ def save_png(fig: Figure, path: str | Path) -> Path:
     return p
 
 
-__all__ = ["bode_figure", "draw_wave", "grid_figure", "save_png", "time_unit", "wave_figure"]
+__all__ = ["bode_figure", "draw_wave", "grid_figure", "parse_size", "save_png", "time_unit",
+           "wave_figure"]

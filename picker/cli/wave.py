@@ -1,0 +1,159 @@
+"""`picker wave` and `picker bode`: predicted output waveform and closed-loop response."""
+
+from __future__ import annotations
+
+from typing import Any
+
+import click
+
+from picker.cli.params import db_option, open_store
+from picker.cli.reqopts import build_requirement, requirement_options
+
+
+def _part_frame(db: str | None, label: str, columns: tuple[str, ...]) -> Any:
+    """One part's row (a DataFrame indexed by label), or NotFound naming the fix."""
+    from picker.errors import NotFound
+
+    frame = open_store(db).parts_frame(["label", *columns])
+    if label not in frame.index:
+        raise NotFound(f"PART: {label!r} is not in the stockroom; see `picker parts list`")
+    return frame.loc[[label]]
+
+
+def _need_known(known: bool, label: str, what: str) -> None:
+    from picker.errors import BadValue
+
+    if not known:
+        raise BadValue("PART", label, f"has no {what} recorded, so its output cannot be "
+                       f"predicted; add it with `picker parts edit {label} ...`")
+
+
+def _cautions(cautions: list[str], as_json: bool) -> None:
+    for c in cautions:
+        click.echo(c, err=as_json)
+
+
+def _size(text: str | None, default: tuple[int, int]) -> tuple[int, int]:
+    from picker.report.plots import parse_size
+
+    return default if text is None else parse_size(text)
+
+
+@click.command()
+@click.argument("part", required=False)
+@requirement_options
+@click.option("--top", type=click.IntRange(min=1, max=20),
+              help="instead of PART: the best N candidates of `picker pick`, side by side")
+@click.option("--png", "png", metavar="FILE", type=click.Path(dir_okay=False),
+              help="write the plot to this PNG file")
+@click.option("--size", metavar="WxH", help="PNG size in pixels (default 1000x600; "
+              "with --top 1200x900)")
+@click.option("--json", "as_json", is_flag=True, help="JSON on stdout (SI units, THD as ratio)")
+@db_option
+def wave(part: str | None, stage: dict[str, Any], top: int | None, png: str | None,
+         size: str | None, as_json: bool, db: str | None) -> None:
+    """Predict a part's output waveform in the stage.
+
+    A sine at the top frequency (--freq) drives the stage; the output is simulated with
+    the part's single-pole gain, input and output resistance, slew rate, output swing
+    (rails minus headroom) and current limit, until it settles. Prints the peaks,
+    peak-to-peak, THD and the active limits (clip, slew, current, bandwidth). Examples:
+
+        picker wave bip-gp-a --topology inverting --gain 10 --vout 10V --freq 20kHz --rails ±15
+
+        picker wave --top 4 --topology inverting --gain 10 --vout 10V --freq 20kHz --rails ±15 --png top.png
+    """
+    from picker.report.plots import GRID_SIZE, WAVE_SIZE
+
+    if (part is None) == (top is None):
+        raise click.UsageError("give either a PART or --top N (the best N candidates)")
+    req = build_requirement(stage)
+    pixels = _size(size, WAVE_SIZE if top is None else GRID_SIZE)
+    if top is not None:
+        _top(req, top, png, pixels, as_json, db)
+        return
+    assert part is not None
+    from picker.design.waveform import COLUMNS, waveforms
+    from picker.report.tables import to_json
+    from picker.report.waves import wave_text
+
+    waves = waveforms(req, _part_frame(db, part, COLUMNS))
+    _need_known(bool(waves.known[0]), part, "gain-bandwidth product or slew rate")
+    if png:
+        from picker.report.plots import save_png, wave_figure
+
+        save_png(wave_figure(waves, 0, pixels), png)
+    if as_json:
+        click.echo(to_json(waves.summary(0)))
+    else:
+        click.echo(wave_text(waves, 0, req))
+        if png:
+            click.echo(f"plot: {png}")
+    _cautions(req.cautions, as_json)
+
+
+def _top(req: Any, n: int, png: str | None, pixels: tuple[int, int], as_json: bool,
+         db: str | None) -> None:
+    from picker.design.waveform import candidate_waveforms
+    from picker.errors import NotFound
+    from picker.report.tables import to_json
+    from picker.report.waves import candidates_json, candidates_text
+
+    frame = open_store(db).parts_frame()
+    if frame.empty:
+        raise NotFound("the stockroom has no parts; add some with `picker parts add` or "
+                       "`picker init --demo`")
+    cands = candidate_waveforms(req, frame, n)
+    if png:
+        from picker.report.plots import grid_figure, save_png
+
+        shown = [k for k in range(len(cands.status)) if cands.waves.known[k]]
+        names = [f"{k + 1}. {cands.waves.labels[k]} ({cands.status[k]})" for k in shown]
+        save_png(grid_figure(cands.waves, shown, pixels, names=names), png)
+    if as_json:
+        click.echo(to_json(candidates_json(cands)))
+    else:
+        click.echo(candidates_text(cands, req))
+        if png:
+            click.echo(f"plot: {png}")
+    _cautions(req.cautions, as_json)
+
+
+@click.command()
+@click.argument("part")
+@requirement_options
+@click.option("--png", "png", metavar="FILE", type=click.Path(dir_okay=False),
+              help="write the Bode plot to this PNG file")
+@click.option("--size", metavar="WxH", help="PNG size in pixels (default 1000x750)")
+@click.option("--json", "as_json", is_flag=True, help="JSON on stdout (Hz, dB, degrees)")
+@db_option
+def bode(part: str, stage: dict[str, Any], png: str | None, size: str | None, as_json: bool,
+         db: str | None) -> None:
+    """Closed-loop gain and phase of a part in the stage, over frequency.
+
+    The exact small-signal response (single-pole open-loop gain, input and output
+    resistance, source, load and network): the -3 dB frequency and the gain and phase
+    at the top frequency (--freq). Example:
+
+        picker bode bip-gp-a --topology non-inverting --gain 20 --vin 0.25V --freq 20kHz --rails ±12 --png bode.png
+    """
+    from picker.design.response import COLUMNS, response
+    from picker.report.plots import BODE_SIZE
+    from picker.report.tables import to_json
+    from picker.report.waves import bode_text
+
+    req = build_requirement(stage)
+    pixels = _size(size, BODE_SIZE)
+    resp = response(req, _part_frame(db, part, COLUMNS))
+    _need_known(bool(resp.known[0]), part, "gain-bandwidth product")
+    if png:
+        from picker.report.plots import bode_figure, save_png
+
+        save_png(bode_figure(resp, 0, pixels), png)
+    if as_json:
+        click.echo(to_json(resp.summary(0)))
+    else:
+        click.echo(bode_text(resp, 0, req))
+        if png:
+            click.echo(f"plot: {png}")
+    _cautions(req.cautions, as_json)
