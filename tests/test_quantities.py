@@ -112,7 +112,7 @@ def test_format(value: float, kind: str, shown: str) -> None:
 ROUND_TRIP_KINDS = [k for k in KINDS if k not in ("count", "price", "amplitude")]
 
 
-@settings(max_examples=300, deadline=None)
+@settings(max_examples=1000, deadline=None)
 @given(
     kind=st.sampled_from(ROUND_TRIP_KINDS),
     mantissa=st.floats(min_value=1.0, max_value=9.999),
@@ -128,8 +128,9 @@ def test_round_trip_within_format_precision(kind: str, mantissa: float, exponent
     assert_allclose(back, x, rtol=rtol, atol=1e-3 if kind == "temperature" else 0)
 
 
-@settings(max_examples=500, deadline=None)
-@given(text=st.text(max_size=30), kind=st.sampled_from(list(KINDS)))
+@settings(max_examples=3000, deadline=None)
+@given(text=st.text(max_size=30) | st.from_regex(r"[-+]?[0-9.,eE]{0,6} ?[a-zA-Zµ°%/√]{0,6}", fullmatch=True),
+       kind=st.sampled_from(list(KINDS)))
 def test_only_our_error_type_escapes(text: str, kind: str) -> None:
     try:
         value = parse(text, kind, "fuzz")  # type: ignore[arg-type]
