@@ -18,7 +18,7 @@ from __future__ import annotations
 import math
 import re
 from dataclasses import dataclass
-from typing import Literal
+from typing import Literal, get_args
 
 from picker.errors import BadValue
 
@@ -40,23 +40,7 @@ Kind = Literal[
     "amplitude",
 ]
 
-KINDS: tuple[Kind, ...] = (
-    "resistance",
-    "frequency",
-    "slew",
-    "gain",
-    "voltage",
-    "current",
-    "vnoise",
-    "inoise",
-    "ratio",
-    "temperature",
-    "drift",
-    "price",
-    "count",
-    "time",
-    "amplitude",
-)
+KINDS: tuple[Kind, ...] = get_args(Kind)
 
 
 @dataclass(frozen=True)

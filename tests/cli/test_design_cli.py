@@ -7,34 +7,12 @@ import math
 import re
 from pathlib import Path
 
-import pytest
-from click.testing import CliRunner
 from numpy.testing import assert_allclose
 
-from picker.cli import cli
+from tests.cli.clirun import fails, run
 
 STAGE = ["--topology", "non-inverting", "--gain", "20", "--vin", "0.25Vpk", "--freq", "20kHz",
          "--rails", "±12", "--load", "2k"]
-
-
-@pytest.fixture(scope="module")
-def db(tmp_path_factory: pytest.TempPathFactory) -> str:
-    path = str(tmp_path_factory.mktemp("design") / "demo.db")
-    result = CliRunner().invoke(cli, ["init", "--demo", "--db", path], catch_exceptions=False)
-    assert result.exit_code == 0, result.output
-    return path
-
-
-def run(*args: str):  # type: ignore[no-untyped-def]
-    result = CliRunner().invoke(cli, list(args), catch_exceptions=False)
-    assert result.exit_code == 0, result.output + result.stderr
-    return result
-
-
-def fails(*args: str):  # type: ignore[no-untyped-def]
-    result = CliRunner().invoke(cli, list(args))
-    assert result.exit_code == 2, result.output
-    return result
 
 
 def test_spec_table_and_json() -> None:

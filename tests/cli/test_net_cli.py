@@ -6,34 +6,12 @@ import json
 import re
 
 import pytest
-from click.testing import CliRunner
 from numpy.testing import assert_allclose
 
-from picker.cli import cli
+from tests.cli.clirun import fails, run
 
 STAGE = ["--vin", "0.5Vpk", "--freq", "20kHz", "--rails", "±12"]
 KEYS = {"series", "resistors", "gain", "gain_error", "worst_case", "mc_p99_error"}
-
-
-@pytest.fixture(scope="module")
-def db(tmp_path_factory: pytest.TempPathFactory) -> str:
-    path = str(tmp_path_factory.mktemp("net") / "demo.db")
-    result = CliRunner().invoke(cli, ["init", "--demo", "--db", path], catch_exceptions=False)
-    assert result.exit_code == 0, result.output
-    return path
-
-
-def run(*args: str):  # type: ignore[no-untyped-def]
-    result = CliRunner().invoke(cli, list(args), catch_exceptions=False)
-    assert result.exit_code == 0, result.output + result.stderr
-    return result
-
-
-def fails(*args: str):  # type: ignore[no-untyped-def]
-    result = CliRunner().invoke(cli, list(args))
-    assert result.exit_code == 2, result.output
-    assert result.stderr.strip().count("\n") == 0, result.stderr
-    return result
 
 
 def is_member(value: float, series: str) -> bool:

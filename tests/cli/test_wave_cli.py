@@ -8,12 +8,11 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-from click.testing import CliRunner
 from matplotlib.image import imread
 from numpy.testing import assert_allclose
 
-from picker.cli import cli
 from picker.design.requirement import load_design
+from tests.cli.clirun import fails, run
 from tests.design.macromodel_spice import Part, ac, f3db, tran
 
 DEMO = Path(__file__).parents[2] / "data" / "demo_stockroom.csv"
@@ -33,28 +32,6 @@ source = "600"
 rf = "20k"
 rg = "400"
 """
-
-
-@pytest.fixture(scope="module")
-def db(tmp_path_factory: pytest.TempPathFactory) -> str:
-    path = str(tmp_path_factory.mktemp("wave") / "demo.db")
-    result = CliRunner().invoke(cli, ["init", "--demo", "--db", path], catch_exceptions=False)
-    assert result.exit_code == 0, result.output
-    return path
-
-
-def run(*args: str):  # type: ignore[no-untyped-def]
-    result = CliRunner().invoke(cli, list(args), catch_exceptions=False)
-    assert result.exit_code == 0, result.output + result.stderr
-    return result
-
-
-def fails(*args: str):  # type: ignore[no-untyped-def]
-    result = CliRunner().invoke(cli, list(args))
-    assert result.exit_code == 2, result.output
-    lines = result.stderr.strip().splitlines()
-    assert len(lines) == 1 and lines[0].startswith("picker: error: "), result.stderr
-    return result
 
 
 def demo_part(label: str) -> Part:
