@@ -27,38 +27,64 @@ T the hottest ambient. The load and Ro add nothing worth counting.
 from __future__ import annotations
 
 import math
+from typing import Any
 
 import numpy as np
 import numpy.typing as npt
 
-from picker.design.checks import Array, CheckResult, Parts, result
-from picker.design.circuit import closed_loop_pole_hz, loop, open_loop
+from picker.design.checks import Array, CheckResult, Parts, result, select_where
+from picker.design.circuit import Loop, closed_loop_pole_hz, loop, open_loop
+from picker.design.coded import Words
 from picker.design.spec import Spec
+from picker.design.topology import Stage
 
 BOLTZMANN = 1.380649e-23  # J/K, exact since the 2019 SI redefinition (CODATA 2018)
 
 
+def _loop(p: Parts, st: Stage) -> Loop:
+    """The loop coefficients of these parts in this stage (shared by gain and noise)."""
+    key = ("loop", st.kp, st.zp, st.kg, st.rg, st.rf, st.load)
+    return p.memo(key, lambda: loop(st, p["rin_ohm"], p["rout_ohm"]))  # type: ignore[no-any-return]
+
+
+_GAIN_NOTES = ("", "Ro unknown, taken as 0", "Rin unknown, taken as ∞",
+               "Ro unknown, taken as 0; Rin unknown, taken as ∞")
+
+
 def gain_accuracy(p: Parts, s: Spec) -> CheckResult:
-    """Worse of the exact gain errors at DC and at the top frequency vs the budget."""
+    """Worse of the exact gain errors at DC and at the top frequency vs the budget.
+
+    G = (n0 + n1·A)/(d0 + d1·A) with A = A0/(1 + jx), x = f·A0/GBW; multiplying
+    through by (1 + jx), |G(f)| = |num + j·n0·x| / |den + j·d0·x| with num = n0 + n1·A0,
+    den = d0 + d1·A0 (the DC gain is num/den): real arithmetic only.
+    """
     st, req = s.stage, s.requirement
     a0, gbw = p["aol_v_per_v"], p["gbw_hz"]
-    lp = loop(st, p["rin_ohm"], p["rout_ohm"])
-    g_dc = lp.gain(a0)
-    g_f = lp.gain(open_loop(a0, gbw, req.freq_hz))
-    with np.errstate(invalid="ignore"):
-        err_dc = np.abs(np.abs(g_dc) / st.gain - 1)
-        err_f = np.abs(np.abs(g_f) / st.gain - 1)
+    lp = _loop(p, st)
+    f = req.freq_hz
+    with np.errstate(invalid="ignore", divide="ignore"):
+        num = lp.n0 + lp.n1 * a0
+        den = lp.d0 + lp.d1 * a0
+        g_dc = num / den
+        gain_f = g_dc
+        if f:
+            x = a0 * (f / gbw)
+            n0x, d0x = lp.n0 * x, lp.d0 * x
+            gain_f = np.sqrt((num * num + n0x * n0x) / (den * den + d0x * d0x))
+        err_dc = np.abs(np.abs(g_dc) * (1 / st.gain) - 1)
+        err_f = np.abs(np.abs(gain_f) * (1 / st.gain) - 1)
         need = s.budget.allowed
-        has = np.where(err_dc > need, err_dc, np.maximum(err_dc, err_f))
+        has = select_where(err_dc > need, np.maximum(err_dc, err_f), err_dc)
     sign = 1.0 if st.ideal_gain >= 0 else -1.0
-    phase = np.degrees(np.angle(g_f * sign))
-    ro_note = np.where(np.isnan(p["rout_ohm"]), "Ro unknown, taken as 0", "")
-    rin_note = np.where(np.isnan(p["rin_ohm"]), "Rin unknown, taken as ∞", "")
-    sep = np.where((ro_note != "") & (rin_note != ""), "; ", "")
-    note = np.char.add(np.char.add(ro_note, sep), rin_note)
-    detail = {"error_dc": err_dc, "error_f": err_f, "gain_dc": np.abs(g_dc),
-              "gain_f": np.abs(g_f), "phase_f_deg": phase,
-              "f_closed_loop": closed_loop_pole_hz(lp, a0, gbw)}
+
+    def phase() -> Array:
+        return np.degrees(np.angle(lp.gain(open_loop(a0, gbw, f)) * sign))  # type: ignore[no-any-return]
+
+    note = Words(np.isnan(p["rout_ohm"]).view(np.int8) + 2 * np.isnan(p["rin_ohm"]).view(np.int8),
+                 _GAIN_NOTES)
+    detail = {"error_dc": err_dc, "error_f": err_f, "gain_dc": lambda: np.abs(g_dc),
+              "gain_f": lambda: np.abs(gain_f), "phase_f_deg": phase,
+              "f_closed_loop": lambda: closed_loop_pole_hz(lp, a0, gbw)}
     return result("gain_accuracy", "ratio", "<=", need, has, detail, note,
                   ("aol_v_per_v", "gbw_hz"))
 
@@ -71,15 +97,18 @@ def _terms(terms: list[tuple[float, Array]], n: int) -> tuple[Array, npt.NDArray
         if coef == 0:
             continue
         unknown |= np.isnan(x)
-        total = total + coef * np.nan_to_num(np.abs(x), nan=0.0)
+        term = np.abs(x)
+        term *= coef
+        total += np.fmax(term, 0.0, out=term)  # fmax drops NaN: an unknown term adds 0
     return total, unknown
 
 
 def _partial(name: str, need: float, known: Array, unknown: npt.NDArray[np.bool_],
-             detail: dict[str, Array], note: str, fields: tuple[str, ...]) -> CheckResult:
+             detail: dict[str, Any], note: str, fields: tuple[str, ...]) -> CheckResult:
     """Fail on what is known; otherwise unknown while any needed parameter is missing."""
-    has = np.where(unknown & (known <= need), np.nan, known)
-    notes = np.where(unknown & (known > need), note, "")
+    over = known > need
+    has = np.where(unknown & ~over, np.nan, known)
+    notes = Words((unknown & over).view(np.int8), ("", note))
     return result(name, "voltage", "<=", need, has, detail, notes, fields)  # type: ignore[arg-type]
 
 
@@ -95,7 +124,8 @@ def offset(p: Parts, s: Spec) -> CheckResult:
         "ios_a": ((rf + zp * ng) / 2, p["ios_a"]),
     }
     known, unknown = _terms(list(parts.values()), len(p))
-    detail = {f"{k.split('_')[0]}_out": c * np.abs(x) for k, (c, x) in parts.items()}
+    detail = {f"{k.split('_')[0]}_out": (lambda c=c, x=x: c * np.abs(x))
+              for k, (c, x) in parts.items()}
     needed = tuple(k for k, (c, _) in parts.items() if c != 0)
     return _partial("offset", req.offset_max_v / req.margin, known, unknown, detail,
                     "at least this; some terms unknown", needed)
@@ -110,18 +140,19 @@ def noise(p: Parts, s: Spec) -> CheckResult:
     r_density2 = four_kt * (rf + (0.0 if math.isinf(rg) else rf**2 / rg) + zp * ng**2)
     en, cur = p["en_v_per_rthz"], p["in_a_per_rthz"]
     i_gain2 = rf**2 + (zp * ng) ** 2
-    lp = loop(st, p["rin_ohm"], p["rout_ohm"])
+    lp = _loop(p, st)
     f_cl = closed_loop_pole_hz(lp, p["aol_v_per_v"], p["gbw_hz"])
     enbw = math.pi / 2 * f_cl
-    terms2 = [(ng**2, en**2), (i_gain2, cur**2)]
+    terms2 = [(ng**2, en * en), (i_gain2, cur * cur)]
     known2, unknown = _terms(terms2, len(p))
+    no_bw = np.isnan(enbw)
     with np.errstate(invalid="ignore"):
         total = np.sqrt((known2 + r_density2) * enbw)
-    detail = {"en_out": ng * en, "in_out": np.sqrt(i_gain2) * cur,
-              "r_out": np.full(len(p), math.sqrt(r_density2)), "f_closed_loop": f_cl,
+    detail = {"en_out": lambda: ng * en, "in_out": lambda: math.sqrt(i_gain2) * cur,
+              "r_out": lambda: np.full(len(p), math.sqrt(r_density2)), "f_closed_loop": f_cl,
               "enbw": enbw}
-    unknown = unknown | np.isnan(enbw)
-    total = np.where(np.isnan(enbw), 0.0, total)
+    unknown |= no_bw
+    total[no_bw] = 0.0
     needed = ("en_v_per_rthz",) + (("in_a_per_rthz",) if i_gain2 > 0 else ()) + ("gbw_hz",)
     return _partial("noise", req.noise_max_v / req.margin, total, unknown, detail,
                     "at least this; some terms unknown", needed)

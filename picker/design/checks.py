@@ -13,13 +13,15 @@ gain_accuracy, offset and noise is in picker.design.accuracy.
 
 from __future__ import annotations
 
-from collections.abc import Callable, Mapping
+from collections.abc import Callable, Iterator, Mapping
 from dataclasses import dataclass, field
+from functools import cached_property
 from typing import Any, Literal
 
 import numpy as np
 import numpy.typing as npt
 
+from picker.design.coded import Details, Words, choose
 from picker.fields import NUMERIC
 from picker.quantities import Kind
 
@@ -36,32 +38,59 @@ Strings = npt.NDArray[np.str_]
 NOT_RANKED: frozenset[str] = frozenset({"stock", "supply"})
 
 class Parts(Mapping[str, Array]):
-    """The numeric columns of a parts table as float arrays (NaN = unknown)."""
+    """The numeric columns of a parts table as float arrays (NaN = unknown).
+
+    Built from a DataFrame indexed by label (Store.parts_frame) or from plain columns
+    (``Parts.from_columns``). A field the table does not hold reads as all unknown
+    (made when first asked for, so reading only the needed columns saves memory).
+    """
 
     def __init__(self, frame: Any) -> None:
-        self.labels: Strings = np.asarray([str(x) for x in frame.index], dtype=str)
-        n = len(self.labels)
-        self._cols = {
-            name: (frame[name].to_numpy(dtype=float, na_value=np.nan) if name in frame.columns
-                   else np.full(n, np.nan))
-            for name in NUMERIC
-        }
+        labels = frame.index.to_numpy(dtype=object)
+        cols = {name: frame[name].to_numpy(dtype=float, na_value=np.nan)
+                for name in NUMERIC if name in frame.columns}
+        self._set(labels, cols)
+
+    @classmethod
+    def from_columns(cls, labels: npt.ArrayLike, columns: Mapping[str, npt.ArrayLike]) -> Parts:
+        """Parts from labels and float columns named by field (missing fields unknown)."""
+        out = object.__new__(cls)
+        out._set(np.asarray(labels, dtype=object),
+                 {k: np.asarray(v, dtype=float) for k, v in columns.items() if k in NUMERIC})
+        return out
+
+    def _set(self, labels: npt.NDArray[Any], cols: dict[str, Array]) -> None:
+        if len(labels) and not all(isinstance(x, str) for x in labels[:1000].tolist()):
+            labels = np.array([str(x) for x in labels.tolist()], dtype=object)
+        self.labels: Strings = labels
+        self._cols = cols
+        self._memo: dict[Any, Any] = {}
 
     def __getitem__(self, name: str) -> Array:
-        return self._cols[name]
+        col = self._cols.get(name)
+        if col is None:
+            if name not in NUMERIC:
+                raise KeyError(name)
+            col = self._cols[name] = np.full(len(self.labels), np.nan)
+        return col
 
-    def __iter__(self):  # type: ignore[no-untyped-def]
-        return iter(self._cols)
+    def __iter__(self) -> Iterator[str]:
+        return iter(NUMERIC)
 
     def __len__(self) -> int:
         return len(self.labels)
 
+    def memo(self, key: Any, make: Callable[[], Any]) -> Any:
+        """A value computed once per Parts (e.g. the loop coefficients two checks share)."""
+        if key not in self._memo:
+            self._memo[key] = make()
+        return self._memo[key]
+
     def take(self, index: npt.ArrayLike) -> Parts:
         """The same columns for a subset of rows."""
-        out = object.__new__(Parts)
         idx = np.asarray(index)
-        out.labels = self.labels[idx]
-        out._cols = {k: v[idx] for k, v in self._cols.items()}
+        out = object.__new__(Parts)
+        out._set(self.labels[idx], {k: v[idx] for k, v in self._cols.items()})
         return out
 
 
@@ -71,19 +100,23 @@ class CheckResult:
 
     name: CheckName
     kind: Kind  # unit of need and has
-    sense: Strings  # ">=": has must reach need; "<=": has must stay below need
+    sense: Words  # ">=": has must reach need; "<=": has must stay below need
     need: Array
     has: Array
     margin: Array
-    detail: dict[str, Array] = field(default_factory=dict)  # intermediate values for `why`
-    note: Strings | None = None  # short per-part remark ("" when none)
+    detail: Mapping[str, Array] = field(default_factory=Details)  # values for `why`, lazy
+    note: Words | None = None  # short per-part remark ("" when none)
     fields: tuple[str, ...] = ()  # part fields this check needs for this stage
 
+    @cached_property
+    def code(self) -> npt.NDArray[np.int8]:
+        """Per part 0 fail, 1 unknown, 2 pass (margin >= 1 passes; NaN is unknown)."""
+        return _codes(self.margin)
+
     @property
-    def status(self) -> Strings:
-        m = self.margin
-        with np.errstate(invalid="ignore"):
-            return np.where(np.isnan(m), "unknown", np.where(m >= 1, "pass", "fail"))
+    def status(self) -> Words:
+        """Per part ``pass``, ``fail`` or ``unknown`` (words built only when read)."""
+        return Words(self.code, STATUS_WORDS)
 
     def record(self, i: int) -> dict[str, Any]:
         """The JSON record of part i: status, need, has, margin (SI units)."""
@@ -96,8 +129,21 @@ def _num(x: float) -> float | None:
     return x if np.isfinite(x) else None
 
 
+STATUS_WORDS: tuple[Status, ...] = ("fail", "unknown", "pass")  # codes 0, 1, 2
+
+
+def _codes(margin: Array) -> npt.NDArray[np.int8]:
+    with np.errstate(invalid="ignore"):
+        code = (margin >= 1).view(np.int8) * np.int8(2)
+    code += np.isnan(margin)  # NaN >= 1 is False: 0 + 1
+    return code  # type: ignore[no-any-return]
+
+
 def at_least(need: npt.ArrayLike, has: npt.ArrayLike) -> Array:
     """Margin has/need of a 'has >= need' limit (need 0: ±inf by the sign of has)."""
+    if np.ndim(need) == 0 and float(need) != 0:  # type: ignore[arg-type]  # one need for all
+        with np.errstate(invalid="ignore"):
+            return np.asarray(has, float) / float(need)  # type: ignore[arg-type, no-any-return]
     need, has = np.broadcast_arrays(np.asarray(need, float), np.asarray(has, float))
     with np.errstate(divide="ignore", invalid="ignore"):
         m = has / need
@@ -107,42 +153,78 @@ def at_least(need: npt.ArrayLike, has: npt.ArrayLike) -> Array:
 
 def at_most(need: npt.ArrayLike, has: npt.ArrayLike) -> Array:
     """Margin need/has of a 'has <= need' limit (has 0: inf)."""
+    if np.ndim(need) == 0 and float(need) > 0:  # type: ignore[arg-type]  # need/0 is inf
+        with np.errstate(divide="ignore", invalid="ignore"):
+            return float(need) / np.asarray(has, float)  # type: ignore[arg-type, no-any-return]
     need, has = np.broadcast_arrays(np.asarray(need, float), np.asarray(has, float))
     with np.errstate(divide="ignore", invalid="ignore"):
         return np.where(has == 0, np.inf, need / has)  # type: ignore[no-any-return]
 
 
-def _rank(margin: Array) -> Array:
-    """fail 0, unknown 1, pass 2: used to pick the worse of two sides."""
-    with np.errstate(invalid="ignore"):
-        return np.where(np.isnan(margin), 1, np.where(margin >= 1, 2, 0))
-
-
 def worse(a: CheckResult, b: CheckResult) -> CheckResult:
-    """Element-wise the worse of two partial results of the same check."""
-    ra, rb = _rank(a.margin), _rank(b.margin)
+    """Element-wise the worse of two partial results of the same check.
+
+    Worse is fail < unknown < pass, and the smaller margin between equals.
+    """
+    ra, rb = a.code, b.code
     with np.errstate(invalid="ignore"):
         pick_b = (rb < ra) | ((rb == ra) & (b.margin < a.margin))
-    detail = {**a.detail, **b.detail}
 
     def sel(x: Any, y: Any) -> Any:
-        return np.where(pick_b, y, x)
+        if _same_constant(x, y):  # e.g. one need for both sides: no per-part choice
+            return x
+        return select_where(pick_b, x, y)
 
-    note = None if a.note is None and b.note is None else sel(
-        a.note if a.note is not None else "", b.note if b.note is not None else "")
-    return CheckResult(a.name, a.kind, sel(a.sense, b.sense), sel(a.need, b.need),
-                       sel(a.has, b.has), sel(a.margin, b.margin), detail, note,
-                       tuple(dict.fromkeys(a.fields + b.fields)))
+    n = len(pick_b)
+    note = None if a.note is None and b.note is None else choose(
+        pick_b, a.note if a.note is not None else Words.same("", n),
+        b.note if b.note is not None else Words.same("", n))
+    out = CheckResult(a.name, a.kind, choose(pick_b, a.sense, b.sense), sel(a.need, b.need),
+                      sel(a.has, b.has), sel(a.margin, b.margin),
+                      Details(a.detail).merged(b.detail), note,
+                      tuple(dict.fromkeys(a.fields + b.fields)))
+    out.__dict__["code"] = ra + pick_b * (rb - ra)  # known already: no need to recompute
+    return out
+
+
+def select_where(pick_b: npt.NDArray[np.bool_], x: Array, y: Array) -> Array:
+    """np.where(pick_b, y, x) for float64, without branches.
+
+    np.where mispredicts a branch per part when the choice is random (two sides of a
+    check close to each other), several times slower than this bit blend:
+    x ^ ((x ^ y)·pick_b) on the 64-bit patterns (exact for every value, NaN and inf too).
+    """
+    xb = np.ascontiguousarray(x, dtype=np.float64).view(np.int64)
+    t = np.bitwise_xor(xb, np.asarray(y, dtype=np.float64).view(np.int64))
+    t *= pick_b
+    t ^= xb
+    return t.view(np.float64)  # type: ignore[no-any-return]
+
+
+def _same_constant(x: Any, y: Any) -> bool:
+    """Both are broadcasts (stride 0) of the same single value."""
+    return (isinstance(x, np.ndarray) and isinstance(y, np.ndarray) and x.ndim == 1
+            and y.ndim == 1 and x.strides == (0,) and y.strides == (0,) and len(x) > 0
+            and len(x) == len(y) and bool(x[0] == y[0]))
 
 
 def result(name: CheckName, kind: Kind, sense: str, need: npt.ArrayLike, has: npt.ArrayLike,
-           detail: dict[str, Array] | None = None, note: Strings | None = None,
+           detail: Mapping[str, Any] | None = None, note: Words | str | None = None,
            fields: tuple[str, ...] = ()) -> CheckResult:
+    """A check's result from what is needed and what each part has.
+
+    ``need`` may be one number for all parts (kept as a read-only broadcast, no copy);
+    ``note`` one word for all parts or Words; ``detail`` values may be functions,
+    computed only when read.
+    """
     has_a = np.asarray(has, dtype=float)
-    need_a = np.broadcast_to(np.asarray(need, dtype=float), has_a.shape).copy()
-    margin = at_least(need_a, has_a) if sense == ">=" else at_most(need_a, has_a)
-    return CheckResult(name, kind, np.full(has_a.shape, sense), need_a, has_a, margin,
-                       detail or {}, note, fields)
+    n = has_a.shape[0] if has_a.ndim else 1
+    need_a = np.broadcast_to(np.asarray(need, dtype=float), has_a.shape)
+    margin = (at_least if sense == ">=" else at_most)(need if np.ndim(need) == 0 else need_a,
+                                                        has_a)
+    words = Words.same(note, n) if isinstance(note, str) else note
+    return CheckResult(name, kind, Words.same(sense, n), need_a, has_a, margin,
+                       Details(detail), words, fields)
 
 
 @dataclass(frozen=True)
@@ -155,38 +237,75 @@ class CheckTable:
     def __len__(self) -> int:
         return len(self.labels)
 
-    def statuses(self) -> dict[CheckName, Strings]:
+    def statuses(self) -> dict[CheckName, Words]:
         return {n: r.status for n, r in self.results.items()}
 
     def names_with(self, status: Status, rows: npt.ArrayLike) -> list[list[CheckName]]:
         """For each of the given rows, the check names with the given status."""
-        st = self.statuses()
         idx = np.asarray(rows, dtype=int)
         names = list(self.results)
         if not names:
             return [[] for _ in idx]
-        mask = np.stack([st[n][idx] == status for n in names], axis=1).tolist()
+        code = STATUS_WORDS.index(status)
+        mask = np.stack([self.results[n].code[idx] == code for n in names], axis=1).tolist()
         return [[n for n, hit in zip(names, row, strict=True) if hit] for row in mask]
 
     def any_status(self, status: Status) -> npt.NDArray[np.bool_]:
-        st = self.statuses()
+        code = STATUS_WORDS.index(status)
         out = np.zeros(len(self.labels), dtype=bool)
-        for s in st.values():
-            out |= s == status
+        for r in self.results.values():
+            out |= r.code == code
         return out
+
+    def verdicts(self) -> tuple[npt.NDArray[np.bool_], npt.NDArray[np.bool_]]:
+        """Per part: does any check fail; is any check unknown."""
+        return self.any_status("fail"), self.any_status("unknown")
 
     def rank_margin(self) -> Array:
         """Per part, the smallest margin over the checks that measure headroom (not stock, supply)."""
         ms = [r.margin for n, r in self.results.items() if n not in NOT_RANKED]
         if not ms:
             return np.full(len(self.labels), np.inf)
-        return np.fmin.reduce(np.stack(ms), axis=0)  # type: ignore[no-any-return]  # NaN-skipping
+        out = ms[0].copy()
+        for m in ms[1:]:
+            np.fmin(out, m, out=out)  # NaN-skipping
+        return out
 
     def records(self, i: int) -> dict[str, dict[str, Any]]:
         return {n: r.record(i) for n, r in self.results.items()}
 
 
 CheckFn = Callable[[Parts, Any], CheckResult]
+
+#: Every part column each check reads (whatever the stage), to read no more than needed.
+READS: dict[CheckName, tuple[str, ...]] = {
+    "swing": ("out_head_pos_v", "out_head_neg_v"),
+    "common_mode": ("cm_head_pos_v", "cm_head_neg_v"),
+    "slew": ("slew_v_per_s",),
+    "gain_accuracy": ("aol_v_per_v", "gbw_hz", "rin_ohm", "rout_ohm"),
+    "output_current": ("iout_a",),
+    "supply": ("supply_min_v", "supply_max_v"),
+    "offset": ("vos_v", "drift_v_per_c", "ib_a", "ios_a"),
+    "noise": ("en_v_per_rthz", "in_a_per_rthz", "aol_v_per_v", "gbw_hz", "rin_ohm",
+              "rout_ohm"),
+    "stock": ("qty", "channels"),
+}
+#: Columns the ranking and the pick listing read besides the checks.
+RANKING_READS: tuple[str, ...] = ("price", "qty", "channels")
+
+
+def applicable(spec: Any) -> tuple[CheckName, ...]:
+    """The checks that apply to ``spec``'s requirement, in report order."""
+    req = spec.requirement
+    return tuple(n for n in CHECKS
+                 if (n != "offset" or req.offset_max_v is not None)
+                 and (n != "noise" or req.noise_max_v is not None))
+
+
+def needed_columns(spec: Any) -> tuple[str, ...]:
+    """The part columns checking, ranking and listing parts for ``spec`` read."""
+    names = [c for n in applicable(spec) for c in READS[n]] + list(RANKING_READS)
+    return tuple(dict.fromkeys(names))
 
 
 def run_checks(parts: Parts | Any, spec: Any) -> CheckTable:
@@ -211,5 +330,6 @@ def run_checks(parts: Parts | Any, spec: Any) -> CheckTable:
     return CheckTable(p.labels, {n: fn(p, spec) for n, fn in fns.items()})
 
 
-__all__ = ["CHECKS", "CheckName", "CheckResult", "CheckTable", "Parts", "Status",
-           "at_least", "at_most", "result", "run_checks", "worse"]
+__all__ = ["CHECKS", "READS", "CheckName", "CheckResult", "CheckTable", "Parts", "Status",
+           "applicable", "at_least", "at_most", "needed_columns", "result", "run_checks",
+           "worse"]

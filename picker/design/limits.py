@@ -21,10 +21,10 @@ def swing(p: Parts, s: Spec) -> CheckResult:
     """Output must reach ref ± m·Vp,out: part's rail minus output headroom, per side."""
     req = s.requirement
     need = s.minimum["swing_pos"] - req.ref  # type: ignore[operator]
-    up = result("swing", "voltage", ">=", need, req.rail_pos - p["out_head_pos_v"] - req.ref,
-                note=np.full(len(p), "toward V+"), fields=("out_head_pos_v",))
-    down = result("swing", "voltage", ">=", need, req.ref - (req.rail_neg + p["out_head_neg_v"]),
-                  note=np.full(len(p), "toward V-"), fields=("out_head_neg_v",))
+    up = result("swing", "voltage", ">=", need, (req.rail_pos - req.ref) - p["out_head_pos_v"],
+                note="toward V+", fields=("out_head_pos_v",))
+    down = result("swing", "voltage", ">=", need, (req.ref - req.rail_neg) - p["out_head_neg_v"],
+                  note="toward V-", fields=("out_head_neg_v",))
     return worse(up, down)
 
 
@@ -33,10 +33,10 @@ def common_mode(p: Parts, s: Spec) -> CheckResult:
     req = s.requirement
     lo, hi = s.common_mode
     up = result("common_mode", "voltage", ">=", hi - req.ref,
-                req.rail_pos - p["cm_head_pos_v"] - req.ref, note=np.full(len(p), "toward V+"),
+                (req.rail_pos - req.ref) - p["cm_head_pos_v"], note="toward V+",
                 fields=("cm_head_pos_v",))
     down = result("common_mode", "voltage", ">=", req.ref - lo,
-                  req.ref - (req.rail_neg + p["cm_head_neg_v"]), note=np.full(len(p), "toward V-"),
+                  (req.ref - req.rail_neg) - p["cm_head_neg_v"], note="toward V-",
                   fields=("cm_head_neg_v",))
     return worse(up, down)
 
@@ -63,9 +63,9 @@ def supply(p: Parts, s: Spec) -> CheckResult:
     """The rail span must lie inside the part's rated supply range."""
     span = s.requirement.span
     high = result("supply", "voltage", ">=", span, p["supply_max_v"],
-                  note=np.full(len(p), "rated maximum"), fields=("supply_max_v",))
+                  note="rated maximum", fields=("supply_max_v",))
     low = result("supply", "voltage", "<=", span, p["supply_min_v"],
-                 note=np.full(len(p), "rated minimum"), fields=("supply_min_v",))
+                 note="rated minimum", fields=("supply_min_v",))
     return worse(high, low)
 
 
@@ -76,11 +76,11 @@ def stock(p: Parts, s: Spec) -> CheckResult:
     pass; too few are unknown, not failed.
     """
     qty, ch = p["qty"], p["channels"]
-    known = qty * ch
-    lower = qty * np.where(np.isnan(ch), 1.0, ch)
-    has = np.where(np.isnan(ch) & (lower < s.requirement.qty), np.nan, lower)
+    no_ch = np.isnan(ch)
+    lower = qty * np.where(no_ch, 1.0, ch)
+    has = np.where(no_ch & (lower < s.requirement.qty), np.nan, lower)
     r = result("stock", "count", ">=", float(s.requirement.qty), has,
-               {"channels_on_hand": known}, fields=("qty", "channels"))
+               {"channels_on_hand": lambda: qty * ch}, fields=("qty", "channels"))
     return r
 
 
