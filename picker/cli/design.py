@@ -47,13 +47,15 @@ def spec(stage: dict[str, Any], explain: bool, as_json: bool) -> None:
               show_default=True, help="order of the accepted parts")
 @click.option("--top", type=click.IntRange(min=1, max=1_000_000_000), help="show only the best N accepted parts")
 @click.option("--strict", is_flag=True, help="reject parts with unknown parameters")
+@click.option("--list", "listed", default="20", metavar="N|all", show_default=True,
+              help="how many rejected and unverified parts to write out, closest first")
 @click.option("--json", "as_json", is_flag=True, help="JSON on stdout (SI base units)")
 @click.option("--reserve", is_flag=True,
               help="take the top accepted part for --for PROJECT (asks first)")
 @click.option("--for", "project", metavar="PROJECT", help="the project --reserve takes parts for")
 @click.option("--yes", is_flag=True, help="with --reserve: do not ask for confirmation")
 @db_option
-def pick(stage: dict[str, Any], by: str, top: int | None, strict: bool, as_json: bool,
+def pick(stage: dict[str, Any], by: str, top: int | None, strict: bool, listed: str, as_json: bool,
          reserve: bool, project: str | None, yes: bool, db: str | None) -> None:
     """Check every part in stock against a stage; best first, rejections explained.
 
@@ -77,11 +79,22 @@ def pick(stage: dict[str, Any], by: str, top: int | None, strict: bool, as_json:
         click.echo(to_json(sel.to_json()))
         _cautions_to_stderr(sel.cautions)
     else:
-        click.echo(pick_text(sel))
+        click.echo(pick_text(sel, _listed(listed)))
     if reserve:
         from picker.cli.stock import reserve_top
 
         reserve_top(store, sel, project, yes, quiet_stdout=as_json)
+
+
+def _listed(text: str) -> int | None:
+    """--list N|all: None means all."""
+    from picker.errors import BadValue
+
+    if text.strip().lower() == "all":
+        return None
+    if text.strip().isdigit() and len(text.strip()) < 10:
+        return int(text)
+    raise BadValue("--list", text, "is not a count; give a whole number or 'all'")
 
 
 @click.command()

@@ -127,8 +127,12 @@ def _limiting(table: Any, i: int) -> str:
     return name
 
 
-def pick_text(sel: Any) -> str:
-    """``picker pick``: accepted (ranked), unverified, rejected with reasons, nearest misses."""
+def pick_text(sel: Any, max_listed: int | None = None) -> str:
+    """``picker pick``: accepted (ranked), unverified, rejected with reasons, nearest misses.
+
+    ``max_listed`` caps how many unverified and rejected parts are written out (closest
+    first); the rest are counted, so a catalogue-sized stockroom stays readable.
+    """
     from tabulate import tabulate
 
     t, parts = sel.table, sel.parts
@@ -154,14 +158,17 @@ def pick_text(sel: Any) -> str:
     if sel.unverified:
         lines += ["", f"Unverified ({len(sel.unverified)}): nothing fails, but some checks "
                   "could not be made (--strict rejects these):"]
-        for e in sel.unverified:
+        for e in sel.unverified[:max_listed]:
             lines.append(f"  {e.part}")
             lines += [f"    {limit_line(t.results[n], e.row, parts)}" for n in e.unknown]
+        lines += _more(len(sel.unverified), max_listed, "unverified")
     if sel.rejected:
-        lines += ["", f"Rejected ({len(sel.rejected)}):"]
-        for e in sel.rejected:
+        closest = "" if max_listed is None or max_listed >= len(sel.rejected) else ", closest first"
+        lines += ["", f"Rejected ({len(sel.rejected)}{closest}):"]
+        for e in sel.rejected[:max_listed]:
             lines.append(f"  {e.part}")
             lines += [f"    {limit_line(t.results[n], e.row, parts)}" for n in e.fails]
+        lines += _more(len(sel.rejected), max_listed, "rejected")
     if sel.nearest:
         lines += ["", "Nearest misses: the requirement would have to move (one change at a "
                   "time) for each to pass:"]
@@ -170,6 +177,13 @@ def pick_text(sel: Any) -> str:
                          + "; ".join(_move(m) for m in n.moves))
     lines += ["", *[f"note: {n}" for n in sel.spec.notes]]
     return "\n".join(lines)
+
+
+def _more(total: int, shown: int | None, what: str) -> list[str]:
+    if shown is None or total <= shown:
+        return []
+    return [f"  ... and {total - shown} more {what}; `--list all` writes them out, "
+            "`picker why PART` explains one"]
 
 
 def _count(x: float) -> str:

@@ -126,3 +126,19 @@ def test_commands_have_help() -> None:
     for name in ("spec", "pick", "why"):
         out = run(name, "--help").stdout
         assert "--topology" in out and "--design" in out and "--margin" in out
+
+
+def test_pick_lists_only_the_closest_rejections(db: str) -> None:
+    stage = ["--topology", "inverting", "--gain", "10", "--vin", "0.5Vpk", "--freq", "20kHz",
+             "--rails", "±12", "--load", "2k", "--db", db]
+    full = json.loads(run("pick", *stage, "--json").stdout)
+    n_rejected = len(full["rejected"])
+    assert n_rejected > 3
+    short = run("pick", *stage, "--list", "3").stdout
+    listed = [ln.strip() for ln in short.splitlines() if ln.startswith("  ") and not ln.startswith("    ")]
+    names = [r["part"] for r in full["rejected"]]
+    assert listed[:3] == names[:3]  # the closest first, in the same order as the JSON
+    assert f"and {n_rejected - 3} more rejected" in short
+    every = run("pick", *stage, "--list", "all").stdout
+    assert all(f"  {name}\n" in every for name in names)
+    fails("pick", *stage, "--list", "some")
