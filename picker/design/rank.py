@@ -12,16 +12,22 @@ naming the unknown checks as failures). Accepted parts are ranked
 
 When nothing is accepted, the nearest misses say how far the requirement would have
 to move for each of them to pass (picker.design.misses).
+
+The three lists are sorted with numpy and kept as row numbers (picker.design.ordering):
+an entry is built only when it is read, so a pick over a catalogue costs little more
+than its checks.
 """
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from typing import Any, Literal
 
 import numpy as np
 
 from picker.design.checks import CheckName, CheckTable, Parts, run_checks
+from picker.design.ordering import Entries, Rows, label_rank, order_rows
 from picker.design.requirement import Requirement
 from picker.design.spec import Spec, minimum_specs
 
@@ -49,9 +55,9 @@ class Selection:
     parts: Parts
     by: By
     strict: bool
-    accepted: list[Entry]
-    rejected: list[Entry]
-    unverified: list[Entry]
+    accepted: Sequence[Entry]  # lists or Entries (built when read)
+    rejected: Sequence[Entry]
+    unverified: Sequence[Entry]
     nearest: list[Any] = field(default_factory=list)  # picker.design.misses.NearMiss
     accepted_total: int = 0  # accepted before --top
 
@@ -63,26 +69,35 @@ class Selection:
     def cautions(self) -> list[str]:
         return self.spec.cautions
 
-    def to_json(self) -> dict[str, Any]:
-        """The JSON shape of ``picker pick --json`` (SI base units)."""
+    def to_json(self, listed: int | None = None) -> dict[str, Any]:
+        """The JSON shape of ``picker pick --json`` (SI base units).
+
+        ``listed`` caps the rejected and unverified lists (closest first); with it the
+        JSON also has ``counts`` (accepted, rejected, unverified before any cap).
+        """
         t = self.table
-        return {
+        rejected = self.rejected if listed is None else self.rejected[:listed]
+        unverified = self.unverified if listed is None else self.unverified[:listed]
+        out: dict[str, Any] = {
             "spec": self.spec.to_json(),
             "accepted": [{"part": e.part, "checks": t.records(e.row)} for e in self.accepted],
             "rejected": [{"part": e.part, "fails": list(e.fails), "checks": t.records(e.row)}
-                         for e in self.rejected],
+                         for e in rejected],
             "unverified": [{"part": e.part, "unknown": list(e.unknown),
-                            "checks": t.records(e.row)} for e in self.unverified],
+                            "checks": t.records(e.row)} for e in unverified],
         }
+        if listed is not None:
+            out["counts"] = {"accepted": self.accepted_total, "rejected": len(self.rejected),
+                             "unverified": len(self.unverified)}
+        return out
 
 
 def closeness(table: CheckTable) -> np.ndarray:
     """Per part, the product of its failing margins clipped to 0..1 (1 = nothing fails)."""
     out = np.ones(len(table))
     for r in table.results.values():
-        with np.errstate(invalid="ignore"):
-            m = np.where(np.isnan(r.margin), 1.0, np.clip(r.margin, 0.0, 1.0))
-        out *= m
+        m = np.maximum(r.margin, 0.0)  # NaN stays NaN ...
+        out *= np.fmin(m, 1.0, out=m)  # ... and fmin turns it into 1 (unknown: no penalty)
     return out
 
 
@@ -104,28 +119,27 @@ def select(
     spec = minimum_specs(req)
     parts = parts_df if isinstance(parts_df, Parts) else Parts(parts_df)
     table = run_checks(parts, spec)
-    fail = table.any_status("fail")
-    unknown = table.any_status("unknown")
+    fail, unknown = table.verdicts()
     margin = table.rank_margin()
-    close = closeness(table)
+    rank = parts.memo("label_rank", lambda: label_rank(parts.labels))
 
-    def entries(mask: np.ndarray) -> list[Entry]:
-        rows = np.flatnonzero(mask)
+    def make(rows: Rows) -> list[Entry]:
         fails = table.names_with("fail", rows)
         unk = table.names_with("unknown", rows)
         labels, margins = parts.labels[rows].tolist(), margin[rows].tolist()
-        return [Entry(labels[k], int(i), fails[k] + (unk[k] if strict else []), unk[k],
-                      margins[k]) for k, i in enumerate(rows)]
+        return [Entry(labels[k], i, fails[k] + (unk[k] if strict else []), unk[k], margins[k])
+                for k, i in enumerate(rows.tolist())]
 
-    ok = ~fail & ~unknown
-    accepted = _ranked(entries(ok), by, parts)
+    def ordered(mask: np.ndarray, *keys: np.ndarray) -> Entries[Entry]:
+        return Entries(order_rows(np.flatnonzero(mask), keys, rank), make)
+
+    accepted = ordered(~fail & ~unknown, *_rank_keys(by, parts, margin))
     total = len(accepted)
     if top is not None:
         accepted = accepted[:top]
-    bad = fail | unknown if strict else fail
-    rejected = sorted(entries(bad), key=lambda e: (-close[e.row], e.part))
-    unverified = [] if strict else sorted(entries(unknown & ~fail),
-                                          key=lambda e: (-e.margin, e.part))
+    rejected = ordered(fail | unknown if strict else fail, -closeness(table))
+    unverified = ordered(np.zeros(len(parts), dtype=bool) if strict else unknown & ~fail,
+                         -margin)
     sel = Selection(spec, table, parts, by, strict, accepted, rejected, unverified,
                     accepted_total=total)
     if not accepted and rejected and misses > 0:
@@ -135,19 +149,15 @@ def select(
     return sel
 
 
-def _ranked(entries: list[Entry], by: By, parts: Parts) -> list[Entry]:
-    def key(e: Entry) -> tuple[float, float, str]:
-        if by == "price":
-            price = parts["price"][e.row]
-            first = np.inf if np.isnan(price) else price
-        elif by == "stock":
-            on_hand = parts["qty"][e.row] * np.nan_to_num(parts["channels"][e.row], nan=1.0)
-            first = np.inf if np.isnan(on_hand) else -on_hand
-        else:
-            first = 0.0
-        return (float(first), -e.margin, e.part)
-
-    return sorted(entries, key=key)
+def _rank_keys(by: By, parts: Parts, margin: np.ndarray) -> list[np.ndarray]:
+    """Sort keys of the accepted parts, first key first (ties by label afterwards)."""
+    if by == "price":
+        price = parts["price"]
+        return [np.where(np.isnan(price), np.inf, price), -margin]
+    if by == "stock":
+        on_hand = parts["qty"] * np.where(np.isnan(parts["channels"]), 1.0, parts["channels"])
+        return [np.where(np.isnan(on_hand), np.inf, -on_hand), -margin]
+    return [-margin]
 
 
 def check_part(parts_df: Any, req: Requirement) -> tuple[Spec, CheckTable]:

@@ -319,9 +319,9 @@ def candidate_waveforms(req: Requirement, parts: Any, n: int = 4,
     from picker.design.rank import select
 
     sel = select(parts, req, by=by, strict=strict, misses=0)  # type: ignore[arg-type]
-    chosen = ([(e, "accepted") for e in sel.accepted]
-              + [(e, "unverified") for e in sel.unverified]
-              + [(e, "rejected: " + ", ".join(e.fails)) for e in sel.rejected])[:n]
+    chosen = ([(e, "accepted") for e in sel.accepted[:n]]
+              + [(e, "unverified") for e in sel.unverified[:n]]
+              + [(e, "rejected: " + ", ".join(e.fails)) for e in sel.rejected[:n]])[:n]
     rows = [e.row for e, _ in chosen]
     st = stage(req)
     waves = simulate(st, sel.parts.take(rows), Drive.of(req, st, freq_hz), steps=steps)
