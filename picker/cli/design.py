@@ -47,15 +47,17 @@ def spec(stage: dict[str, Any], explain: bool, as_json: bool) -> None:
               show_default=True, help="order of the accepted parts")
 @click.option("--top", type=click.IntRange(min=1, max=1_000_000_000), help="show only the best N accepted parts")
 @click.option("--strict", is_flag=True, help="reject parts with unknown parameters")
-@click.option("--list", "listed", default="20", metavar="N|all", show_default=True,
-              help="how many rejected and unverified parts to write out, closest first")
+@click.option("--list", "listed", metavar="N|all",
+              help="how many rejected and unverified parts to write out, closest first "
+              "(default 20; with --json all, unless given)")
 @click.option("--json", "as_json", is_flag=True, help="JSON on stdout (SI base units)")
 @click.option("--reserve", is_flag=True,
               help="take the top accepted part for --for PROJECT (asks first)")
 @click.option("--for", "project", metavar="PROJECT", help="the project --reserve takes parts for")
 @click.option("--yes", is_flag=True, help="with --reserve: do not ask for confirmation")
 @db_option
-def pick(stage: dict[str, Any], by: str, top: int | None, strict: bool, listed: str, as_json: bool,
+def pick(stage: dict[str, Any], by: str, top: int | None, strict: bool, listed: str | None,
+         as_json: bool,
          reserve: bool, project: str | None, yes: bool, db: str | None) -> None:
     """Check every part in stock against a stage; best first, rejections explained.
 
@@ -65,21 +67,25 @@ def pick(stage: dict[str, Any], by: str, top: int | None, strict: bool, listed: 
 
         picker pick --topology non-inverting --gain 20 --vin 0.25V --freq 20kHz --rails ±12
     """
+    from picker.design.checks import Parts, needed_columns
     from picker.design.rank import select
+    from picker.design.spec import minimum_specs
     from picker.report.checks import pick_text
     from picker.report.tables import to_json
 
     if reserve and not project:
         raise click.UsageError("--reserve needs --for PROJECT, the project the parts go to")
+    cap = _listed(listed) if listed is not None else (None if as_json else 20)
     req = build_requirement(stage)
     store = open_store(db)
-    frame = store.parts_frame()
-    sel = select(frame, req, by=by, top=top, strict=strict)  # type: ignore[arg-type]
+    # only the columns this stage's checks and the listing read, straight into arrays
+    parts = Parts.from_columns(*store.parts_columns(needed_columns(minimum_specs(req))))
+    sel = select(parts, req, by=by, top=top, strict=strict)  # type: ignore[arg-type]
     if as_json:
-        click.echo(to_json(sel.to_json()))
+        click.echo(to_json(sel.to_json(cap)))
         _cautions_to_stderr(sel.cautions)
     else:
-        click.echo(pick_text(sel, _listed(listed)))
+        click.echo(pick_text(sel, cap))
     if reserve:
         from picker.cli.stock import reserve_top
 

@@ -51,42 +51,61 @@ _GAIN_NOTES = ("", "Ro unknown, taken as 0", "Rin unknown, taken as ∞",
                "Ro unknown, taken as 0; Rin unknown, taken as ∞")
 
 
+def _gains(p: Parts, st: Stage, f: float) -> tuple[Array, Array]:
+    """|G| at DC and at f, per part (see gain_accuracy)."""
+    a0, gbw = p["aol_v_per_v"], p["gbw_hz"]
+    lp = _loop(p, st)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        num = lp.n0 + lp.n1 * a0
+        den = lp.d0 + lp.d1 * a0
+        g_dc = np.abs(num / den)
+        if not f:
+            return g_dc, g_dc
+        x = a0 * (f / gbw)
+        n0x, d0x = lp.n0 * x, lp.d0 * x
+        return g_dc, np.sqrt((num * num + n0x * n0x) / (den * den + d0x * d0x))
+
+
+def _errors(p: Parts, st: Stage, f: float) -> tuple[Array, Array]:
+    """Relative gain errors | |G|/G - 1 | at DC and at f, per part."""
+    g_dc, g_f = _gains(p, st, f)
+    with np.errstate(invalid="ignore"):
+        return np.abs(g_dc * (1 / st.gain) - 1), np.abs(g_f * (1 / st.gain) - 1)
+
+
 def gain_accuracy(p: Parts, s: Spec) -> CheckResult:
     """Worse of the exact gain errors at DC and at the top frequency vs the budget.
 
     G = (n0 + n1·A)/(d0 + d1·A) with A = A0/(1 + jx), x = f·A0/GBW; multiplying
     through by (1 + jx), |G(f)| = |num + j·n0·x| / |den + j·d0·x| with num = n0 + n1·A0,
-    den = d0 + d1·A0 (the DC gain is num/den): real arithmetic only.
+    den = d0 + d1·A0 (the DC gain is num/den): real arithmetic only. The details for
+    ``picker why`` are computed again when read, so a pick keeps no extra arrays.
     """
     st, req = s.stage, s.requirement
-    a0, gbw = p["aol_v_per_v"], p["gbw_hz"]
-    lp = _loop(p, st)
     f = req.freq_hz
-    with np.errstate(invalid="ignore", divide="ignore"):
-        num = lp.n0 + lp.n1 * a0
-        den = lp.d0 + lp.d1 * a0
-        g_dc = num / den
-        gain_f = g_dc
-        if f:
-            x = a0 * (f / gbw)
-            n0x, d0x = lp.n0 * x, lp.d0 * x
-            gain_f = np.sqrt((num * num + n0x * n0x) / (den * den + d0x * d0x))
-        err_dc = np.abs(np.abs(g_dc) * (1 / st.gain) - 1)
-        err_f = np.abs(np.abs(gain_f) * (1 / st.gain) - 1)
-        need = s.budget.allowed
+    err_dc, err_f = _errors(p, st, f)
+    need = s.budget.allowed
+    with np.errstate(invalid="ignore"):
         has = select_where(err_dc > need, np.maximum(err_dc, err_f), err_dc)
+    del err_dc, err_f
     sign = 1.0 if st.ideal_gain >= 0 else -1.0
 
     def phase() -> Array:
-        return np.degrees(np.angle(lp.gain(open_loop(a0, gbw, f)) * sign))  # type: ignore[no-any-return]
+        g = _loop(p, st).gain(open_loop(p["aol_v_per_v"], p["gbw_hz"], f))
+        return np.degrees(np.angle(g * sign))  # type: ignore[no-any-return]
 
     note = Words(np.isnan(p["rout_ohm"]).view(np.int8) + 2 * np.isnan(p["rin_ohm"]).view(np.int8),
                  _GAIN_NOTES)
-    detail = {"error_dc": err_dc, "error_f": err_f, "gain_dc": lambda: np.abs(g_dc),
-              "gain_f": lambda: np.abs(gain_f), "phase_f_deg": phase,
-              "f_closed_loop": lambda: closed_loop_pole_hz(lp, a0, gbw)}
+    detail = {"error_dc": lambda: _errors(p, st, f)[0], "error_f": lambda: _errors(p, st, f)[1],
+              "gain_dc": lambda: _gains(p, st, f)[0], "gain_f": lambda: _gains(p, st, f)[1],
+              "phase_f_deg": phase, "f_closed_loop": lambda: _pole(p, st)}
     return result("gain_accuracy", "ratio", "<=", need, has, detail, note,
                   ("aol_v_per_v", "gbw_hz"))
+
+
+def _pole(p: Parts, st: Stage) -> Array:
+    """The closed loop's pole per part (Hz)."""
+    return closed_loop_pole_hz(_loop(p, st), p["aol_v_per_v"], p["gbw_hz"])
 
 
 def _terms(terms: list[tuple[float, Array]], n: int) -> tuple[Array, npt.NDArray[np.bool_]]:
@@ -140,17 +159,16 @@ def noise(p: Parts, s: Spec) -> CheckResult:
     r_density2 = four_kt * (rf + (0.0 if math.isinf(rg) else rf**2 / rg) + zp * ng**2)
     en, cur = p["en_v_per_rthz"], p["in_a_per_rthz"]
     i_gain2 = rf**2 + (zp * ng) ** 2
-    lp = _loop(p, st)
-    f_cl = closed_loop_pole_hz(lp, p["aol_v_per_v"], p["gbw_hz"])
-    enbw = math.pi / 2 * f_cl
+    enbw = _pole(p, st)
+    enbw *= math.pi / 2  # noise bandwidth of a single pole
     terms2 = [(ng**2, en * en), (i_gain2, cur * cur)]
     known2, unknown = _terms(terms2, len(p))
     no_bw = np.isnan(enbw)
     with np.errstate(invalid="ignore"):
         total = np.sqrt((known2 + r_density2) * enbw)
     detail = {"en_out": lambda: ng * en, "in_out": lambda: math.sqrt(i_gain2) * cur,
-              "r_out": lambda: np.full(len(p), math.sqrt(r_density2)), "f_closed_loop": f_cl,
-              "enbw": enbw}
+              "r_out": lambda: np.full(len(p), math.sqrt(r_density2)),
+              "f_closed_loop": lambda: _pole(p, st), "enbw": lambda: math.pi / 2 * _pole(p, st)}
     unknown |= no_bw
     total[no_bw] = 0.0
     needed = ("en_v_per_rthz",) + (("in_a_per_rthz",) if i_gain2 > 0 else ()) + ("gbw_hz",)

@@ -86,6 +86,10 @@ class Parts(Mapping[str, Array]):
             self._memo[key] = make()
         return self._memo[key]
 
+    def forget(self) -> None:
+        """Drop the memo (values two checks shared; recomputed if asked again)."""
+        self._memo.clear()
+
     def take(self, index: npt.ArrayLike) -> Parts:
         """The same columns for a subset of rows."""
         idx = np.asarray(index)
@@ -327,7 +331,9 @@ def run_checks(parts: Parts | Any, spec: Any) -> CheckTable:
     if req.noise_max_v is not None:
         fns["noise"] = accuracy.noise
     fns["stock"] = limits.stock
-    return CheckTable(p.labels, {n: fn(p, spec) for n, fn in fns.items()})
+    table = CheckTable(p.labels, {n: fn(p, spec) for n, fn in fns.items()})
+    p.forget()  # e.g. the loop coefficients: 16 bytes a part, not needed any more
+    return table
 
 
 __all__ = ["CHECKS", "READS", "CheckName", "CheckResult", "CheckTable", "Parts", "Status",

@@ -111,32 +111,41 @@ class Store:
     ) -> pd.DataFrame:
         """Parts as a DataFrame indexed by label; numeric columns float64, NaN = unknown.
 
-        Only the named columns are read (all fields when None); conditions and a
-        minimum quantity are applied in SQL so fewer rows travel.
+        Only the named columns are read (all fields and updated_at when None); conditions
+        and a minimum quantity are applied in SQL so fewer rows travel.
         """
-        import numpy as np
         import pandas as pd
-        from sqlalchemy import select
-
-        from picker.store.models import parts
 
         names = list(FIELD_NAMES) + ["updated_at"] if columns is None else list(columns)
-        cols = [parts.c.label] + [parts.c[n] for n in names if n != "label"]
-        stmt = select(*cols)
-        for cond in conditions:
-            stmt = stmt.where(_clause(cond))
+        labels, cols = self._read(names, conditions, min_qty)
+        frame = pd.DataFrame(cols, index=pd.Index(labels, name="label"))
+        return frame[[n for n in dict.fromkeys(names) if n != "label"]]
+
+    def parts_columns(
+        self,
+        columns: Sequence[str],
+        conditions: Sequence[Condition] = (),
+        min_qty: int | None = None,
+    ) -> tuple[Any, dict[str, Any]]:
+        """Labels and numeric columns as float64 numpy arrays (NaN = unknown), by label.
+
+        The lean read for checking parts (no pandas): picker.design.checks.Parts
+        .from_columns takes the result as it is.
+        """
+        bad = [c for c in columns if c not in NUMERIC]
+        if bad:
+            raise ValueError(f"parts_columns reads numeric fields only, not {bad}")
+        return self._read(columns, conditions, min_qty)
+
+    def _read(self, names: Sequence[str], conditions: Sequence[Condition],
+              min_qty: int | None) -> tuple[Any, dict[str, Any]]:
+        from picker.store.columns import read_columns
+        from picker.store.models import parts
+
+        where = [_clause(c) for c in conditions]
         if min_qty is not None:
-            stmt = stmt.where(parts.c.qty >= min_qty)
-        stmt = stmt.order_by(parts.c.label)
-        with self.engine.connect() as conn:
-            result = conn.execute(stmt)
-            rows = result.fetchall()
-            keys = list(result.keys())
-        frame = pd.DataFrame.from_records(rows, columns=keys)
-        for n in names:
-            if n in NUMERIC:
-                frame[n] = pd.to_numeric(frame[n], errors="coerce").astype(np.float64)
-        return frame.set_index("label")
+            where.append(parts.c.qty >= min_qty)
+        return read_columns(self.engine, names, where)
 
     def get(self, label: str) -> dict[str, Any]:
         from sqlalchemy import select
