@@ -56,14 +56,20 @@ def _gains(p: Parts, st: Stage, f: float) -> tuple[Array, Array]:
     a0, gbw = p["aol_v_per_v"], p["gbw_hz"]
     lp = _loop(p, st)
     with np.errstate(invalid="ignore", divide="ignore"):
-        num = lp.n0 + lp.n1 * a0
-        den = lp.d0 + lp.d1 * a0
+        d1 = _same(lp.d1)
+        num = lp.n0 + _same(lp.n1) * a0
+        den = lp.d0 + (a0 if isinstance(d1, float) and d1 == 1 else d1 * a0)
         g_dc = np.abs(num / den)
         if not f:
             return g_dc, g_dc
         x = a0 * (f / gbw)
         n0x, d0x = lp.n0 * x, lp.d0 * x
         return g_dc, np.sqrt((num * num + n0x * n0x) / (den * den + d0x * d0x))
+
+
+def _same(x: Array) -> Array | float:
+    """A coefficient that is the same for every part (a stride-0 broadcast) as a float."""
+    return float(x[0]) if x.ndim == 1 and len(x) and x.strides == (0,) else x
 
 
 def _errors(p: Parts, st: Stage, f: float) -> tuple[Array, Array]:
@@ -94,8 +100,8 @@ def gain_accuracy(p: Parts, s: Spec) -> CheckResult:
         g = _loop(p, st).gain(open_loop(p["aol_v_per_v"], p["gbw_hz"], f))
         return np.degrees(np.angle(g * sign))  # type: ignore[no-any-return]
 
-    note = Words(np.isnan(p["rout_ohm"]).view(np.int8) + 2 * np.isnan(p["rin_ohm"]).view(np.int8),
-                 _GAIN_NOTES)
+    note = Words(lambda: np.isnan(p["rout_ohm"]).view(np.int8)
+                 + 2 * np.isnan(p["rin_ohm"]).view(np.int8), _GAIN_NOTES)
     detail = {"error_dc": lambda: _errors(p, st, f)[0], "error_f": lambda: _errors(p, st, f)[1],
               "gain_dc": lambda: _gains(p, st, f)[0], "gain_f": lambda: _gains(p, st, f)[1],
               "phase_f_deg": phase, "f_closed_loop": lambda: _pole(p, st)}
@@ -109,16 +115,25 @@ def _pole(p: Parts, st: Stage) -> Array:
 
 
 def _terms(terms: list[tuple[float, Array]], n: int) -> tuple[Array, npt.NDArray[np.bool_]]:
-    """Σ coef·|x| over terms with a non-zero coefficient, and where any x is unknown."""
-    total = np.zeros(n)
-    unknown = np.zeros(n, dtype=bool)
+    """Σ coef·|x| over terms with a non-zero coefficient, and where any x is unknown.
+
+    An unknown term adds nothing to the sum (it is at least the known part).
+    """
+    parts = []
     for coef, x in terms:
-        if coef == 0:
-            continue
-        unknown |= np.isnan(x)
-        term = np.abs(x)
-        term *= coef
-        total += np.fmax(term, 0.0, out=term)  # fmax drops NaN: an unknown term adds 0
+        if coef != 0:
+            t = np.abs(x)
+            t *= coef
+            parts.append(t)
+    if not parts:
+        return np.zeros(n), np.zeros(n, dtype=bool)
+    total = parts[0].copy()
+    for t in parts[1:]:
+        total += t
+    unknown = np.isnan(total)  # NaN when any term is unknown
+    rows = np.flatnonzero(unknown)
+    if len(rows):
+        total[rows] = sum(np.fmax(t[rows], 0.0) for t in parts)  # fmax drops NaN
     return total, unknown
 
 
@@ -126,8 +141,9 @@ def _partial(name: str, need: float, known: Array, unknown: npt.NDArray[np.bool_
              detail: dict[str, Any], note: str, fields: tuple[str, ...]) -> CheckResult:
     """Fail on what is known; otherwise unknown while any needed parameter is missing."""
     over = known > need
-    has = np.where(unknown & ~over, np.nan, known)
-    notes = Words((unknown & over).view(np.int8), ("", note))
+    has = known.copy()
+    has[unknown & ~over] = np.nan
+    notes = Words(lambda: (unknown & over).view(np.int8), ("", note))
     return result(name, "voltage", "<=", need, has, detail, notes, fields)  # type: ignore[arg-type]
 
 

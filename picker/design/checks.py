@@ -170,6 +170,8 @@ def worse(a: CheckResult, b: CheckResult) -> CheckResult:
 
     Worse is fail < unknown < pass, and the smaller margin between equals.
     """
+    if _same_lower_limit(a, b):
+        return _worse_of_same_limit(a, b)
     ra, rb = a.code, b.code
     with np.errstate(invalid="ignore"):
         pick_b = (rb < ra) | ((rb == ra) & (b.margin < a.margin))
@@ -189,6 +191,46 @@ def worse(a: CheckResult, b: CheckResult) -> CheckResult:
                       tuple(dict.fromkeys(a.fields + b.fields)))
     out.__dict__["code"] = ra + pick_b * (rb - ra)  # known already: no need to recompute
     return out
+
+
+def _same_lower_limit(a: CheckResult, b: CheckResult) -> bool:
+    """Both sides need the same positive amount, has >= need (e.g. swing up and down)."""
+    return (_same_constant(a.need, b.need) and float(a.need[0]) > 0
+            and _constant_word(a.sense) == _constant_word(b.sense) == ">=")
+
+
+def _constant_word(w: Words) -> str | None:
+    codes = w.codes
+    return w.words[int(codes[0])] if codes.ndim == 1 and len(codes) and codes.strides == (0,) \
+        else None
+
+
+def _worse_of_same_limit(a: CheckResult, b: CheckResult) -> CheckResult:
+    """worse() when both sides need the same positive amount from below.
+
+    The worse side is then the one with less: a known shortfall (fmin skips an unknown
+    side) beats an unknown side, which beats a pass (minimum keeps NaN). The same
+    outcome as the general rule, in a few whole-column operations.
+    """
+    need = float(a.need[0])
+    ha, hb = a.has, b.has
+    with np.errstate(invalid="ignore"):
+        low = np.fmin(ha, hb)
+        has = select_where(low < need, np.minimum(ha, hb), low)
+    margin = has / need
+
+    def side_b() -> npt.NDArray[np.bool_]:
+        return (has == hb) & (has != ha)  # ties and unknowns stay with a, as in worse()
+
+    n = len(has)
+    na = a.note if a.note is not None else Words.same("", n)
+    nb = b.note if b.note is not None else Words.same("", n)
+    note = None if a.note is None and b.note is None else Words(
+        lambda: choose(side_b(), na, nb).codes, na.words + tuple(
+            w for w in nb.words if w not in na.words))
+    return CheckResult(a.name, a.kind, a.sense, a.need, has, margin,
+                       Details(a.detail).merged(b.detail), note,
+                       tuple(dict.fromkeys(a.fields + b.fields)))
 
 
 def select_where(pick_b: npt.NDArray[np.bool_], x: Array, y: Array) -> Array:

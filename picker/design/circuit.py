@@ -105,10 +105,10 @@ def loop(stage: Stage, rin: npt.ArrayLike, ro: npt.ArrayLike) -> Loop:
     ``rin`` and ``ro`` are arrays over parts (NaN Rin = infinite, NaN Ro = 0).
     ``n1`` and ``d1`` are the same for every part (read-only broadcasts).
     """
-    rin_a = np.asarray(rin, dtype=float)
-    ro_a = np.asarray(ro, dtype=float)
-    gin = conductance(rin_a)
-    ro_a = np.where(np.isnan(ro_a), 0.0, ro_a)
+    with np.errstate(divide="ignore"):
+        # 1/Rin, open (0) for an unknown or infinite Rin: fmax drops NaN, 1/inf is 0
+        gin = np.fmax(1.0 / np.asarray(rin, dtype=float), 0.0)
+    ro_a = np.fmax(np.asarray(ro, dtype=float), 0.0)  # an unknown Ro (NaN) counts as 0
     gg = 0.0 if np.isinf(stage.rg) else 1.0 / stage.rg
     gl = 0.0 if np.isinf(stage.load) else 1.0 / stage.load
     kp, kg, zp, rf = stage.kp, stage.kg, stage.zp, stage.rf

@@ -28,13 +28,25 @@ class Words(Sequence[str]):
 
     Reads like a sequence of str: ``w[i]`` is a word, ``w[mask]`` and ``w[rows]`` are
     Words again, ``w == "fail"`` is a boolean array, ``np.asarray(w)`` a string array.
+    ``codes`` may be given as a function, called when the words are first read (a note
+    most picks never show costs nothing).
     """
 
-    __slots__ = ("codes", "words")
+    __slots__ = ("_codes", "_make", "words")
 
-    def __init__(self, codes: npt.ArrayLike, words: Sequence[str]) -> None:
-        self.codes: Codes = np.asarray(codes, dtype=np.int8)
+    def __init__(self, codes: npt.ArrayLike | Callable[[], npt.ArrayLike],
+                 words: Sequence[str]) -> None:
+        self._make = codes if callable(codes) else None
+        self._codes: Codes | None = None if callable(codes) else np.asarray(codes, np.int8)
         self.words: tuple[str, ...] = tuple(words)
+
+    @property
+    def codes(self) -> Codes:
+        if self._codes is None:
+            assert self._make is not None
+            self._codes = np.asarray(self._make(), dtype=np.int8)
+            self._make = None
+        return self._codes
 
     @classmethod
     def same(cls, word: str, n: int) -> Words:
