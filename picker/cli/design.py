@@ -71,7 +71,7 @@ def pick(stage: dict[str, Any], by: str, top: int | None, strict: bool, listed: 
     from picker.design.rank import select
     from picker.design.spec import minimum_specs
     from picker.report.checks import pick_text
-    from picker.report.tables import to_json
+    from picker.report.tables import to_json_rows
 
     if reserve and not project:
         raise click.UsageError("--reserve needs --for PROJECT, the project the parts go to")
@@ -82,7 +82,9 @@ def pick(stage: dict[str, Any], by: str, top: int | None, strict: bool, listed: 
     parts = Parts.from_columns(*store.parts_columns(needed_columns(minimum_specs(req))))
     sel = select(parts, req, by=by, top=top, strict=strict)  # type: ignore[arg-type]
     if as_json:
-        click.echo(to_json(sel.to_json(cap)))
+        stdout = click.get_text_stream("stdout")
+        to_json_rows(sel.json_items(cap), write=stdout.write)  # one part per line, streamed
+        stdout.write("\n")
         _cautions_to_stderr(sel.cautions)
     else:
         click.echo(pick_text(sel, cap))

@@ -128,6 +128,14 @@ class CheckResult:
                 "has": _num(self.has[i]), "margin": _num(self.margin[i])}
 
 
+def _plain(x: Array) -> list[float | None]:
+    """Floats as a list, None where not finite (JSON has no NaN or infinity)."""
+    values: list[float | None] = x.tolist()
+    for k in np.flatnonzero(~np.isfinite(x)).tolist():
+        values[k] = None
+    return values
+
+
 def _num(x: float) -> float | None:
     x = float(x)
     return x if np.isfinite(x) else None
@@ -319,6 +327,18 @@ class CheckTable:
 
     def records(self, i: int) -> dict[str, dict[str, Any]]:
         return {n: r.record(i) for n, r in self.results.items()}
+
+    def records_for(self, rows: npt.ArrayLike) -> list[dict[str, dict[str, Any]]]:
+        """``records(i)`` for each of ``rows``, built column by column (plain Python values)."""
+        idx = np.asarray(rows, dtype=np.intp)
+        cols = {}
+        for n, r in self.results.items():
+            words = STATUS_WORDS
+            cols[n] = (
+                [words[c] for c in r.code[idx].tolist()],
+                _plain(r.need[idx]), _plain(r.has[idx]), _plain(r.margin[idx]))
+        return [{n: {"status": st[k], "need": need[k], "has": has[k], "margin": m[k]}
+                 for n, (st, need, has, m) in cols.items()} for k in range(len(idx))]
 
 
 CheckFn = Callable[[Parts, Any], CheckResult]

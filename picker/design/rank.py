@@ -20,7 +20,7 @@ than its checks.
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Iterator, Sequence
 from dataclasses import dataclass, field
 from typing import Any, Literal
 
@@ -75,21 +75,36 @@ class Selection:
         ``listed`` caps the rejected and unverified lists (closest first); with it the
         JSON also has ``counts`` (accepted, rejected, unverified before any cap).
         """
+        return {k: list(v) if k in _LISTS else v for k, v in self.json_items(listed).items()}
+
+    def json_items(self, listed: int | None = None) -> dict[str, Any]:
+        """``to_json`` with the three lists as iterators that build their records in
+        batches while they are written (picker.report.tables.to_json_rows)."""
         t = self.table
         rejected = self.rejected if listed is None else self.rejected[:listed]
         unverified = self.unverified if listed is None else self.unverified[:listed]
-        out: dict[str, Any] = {
-            "spec": self.spec.to_json(),
-            "accepted": [{"part": e.part, "checks": t.records(e.row)} for e in self.accepted],
-            "rejected": [{"part": e.part, "fails": list(e.fails), "checks": t.records(e.row)}
-                         for e in rejected],
-            "unverified": [{"part": e.part, "unknown": list(e.unknown),
-                            "checks": t.records(e.row)} for e in unverified],
-        }
+
+        def items(entries: Sequence[Entry], extra: str | None) -> Iterator[dict[str, Any]]:
+            for start in range(0, len(entries), 1000):
+                chunk = list(entries[start:start + 1000])
+                for e, checks in zip(chunk, t.records_for([e.row for e in chunk]), strict=True):
+                    item: dict[str, Any] = {"part": e.part}
+                    if extra is not None:
+                        item[extra] = list(getattr(e, extra))
+                    item["checks"] = checks
+                    yield item
+
+        out: dict[str, Any] = {"spec": self.spec.to_json(),
+                               "accepted": items(self.accepted, None),
+                               "rejected": items(rejected, "fails"),
+                               "unverified": items(unverified, "unknown")}
         if listed is not None:
             out["counts"] = {"accepted": self.accepted_total, "rejected": len(self.rejected),
                              "unverified": len(self.unverified)}
         return out
+
+
+_LISTS = ("accepted", "rejected", "unverified")
 
 
 def closeness(table: CheckTable) -> np.ndarray:

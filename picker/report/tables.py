@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import json
 import math
-from collections.abc import Iterable, Mapping, Sequence
+from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
 from datetime import datetime
 from typing import Any
 
@@ -70,3 +70,37 @@ def to_json(obj: Any) -> str:
         return _jsonable(x)
 
     return json.dumps(walk(obj), indent=2, ensure_ascii=False, allow_nan=False)
+
+
+def to_json_rows(obj: Mapping[str, Any], write: Callable[[str], Any] | None = None) -> str:
+    """The same JSON as ``to_json``, laid out with each element of a top-level list on one
+    line. Each element is written by json's C encoder (to_json's indentation runs in pure
+    Python), so a list of a hundred thousand parts takes seconds, not minutes.
+
+    A top-level value may be an iterator of elements (built while writing). Elements
+    must hold plain JSON values. With ``write`` the text goes out piece by piece (and ""
+    is returned), so a long list is never held whole.
+    """
+    pieces: list[str] = []
+    out = write if write is not None else pieces.append
+
+    def plain(x: Any) -> Any:
+        value = _jsonable(x)
+        if value is x:
+            raise TypeError(f"{type(x).__name__} is not a JSON value")
+        return value
+
+    out("{")
+    for k, (key, value) in enumerate(obj.items()):
+        out(("," if k else "") + "\n  " + json.dumps(str(key), ensure_ascii=False) + ": ")
+        if isinstance(value, Iterator) or (isinstance(value, list) and value):
+            first = True
+            for item in value:
+                out(("[\n    " if first else ",\n    ")
+                    + json.dumps(item, ensure_ascii=False, allow_nan=False, default=plain))
+                first = False
+            out("[]" if first else "\n  ]")
+        else:
+            out(to_json(value).replace("\n", "\n  "))
+    out("\n}" if obj else "}")
+    return "".join(pieces)

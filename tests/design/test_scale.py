@@ -146,3 +146,9 @@ def test_branch_free_selection_matches_numpy_where() -> None:
     assert_array_equal(np.asarray(choose(mask, a, b)),
                        np.where(mask, np.asarray(b), np.asarray(a)))
     assert_array_equal(a == "toward V-", np.asarray(a) == "toward V-")
+
+
+def test_json_records_built_by_column_equal_the_per_part_records(frame: Any) -> None:
+    table = run_checks(Parts(frame), minimum_specs(requirement_from(STAGES[0])))
+    rows = [0, 5, 17, 399, 5]
+    assert table.records_for(rows) == [table.records(i) for i in rows]
