@@ -176,29 +176,51 @@ def at_most(need: npt.ArrayLike, has: npt.ArrayLike) -> Array:
 def worse(a: CheckResult, b: CheckResult) -> CheckResult:
     """Element-wise the worse of two partial results of the same check.
 
-    Worse is fail < unknown < pass, and the smaller margin between equals.
+    Worse is fail < unknown < pass, and the smaller margin between equals (a on a tie).
+    On margins: a known shortfall wins (fmin skips an unknown side), else an unknown
+    side (minimum keeps NaN), else the smaller; a few whole-column operations.
     """
-    if _same_lower_limit(a, b):
-        return _worse_of_same_limit(a, b)
-    ra, rb = a.code, b.code
+    if _same_lower_limit(a, b):  # has >= the same need on both sides: compare has itself
+        need = float(a.need[0])
+        with np.errstate(invalid="ignore"):
+            has = _worse_of(a.has, b.has, need)
+        margin = has / need
+        return _assembled(a, b, has, margin, lambda: _not_a(has, a.has), same_need=True)
     with np.errstate(invalid="ignore"):
-        pick_b = (rb < ra) | ((rb == ra) & (b.margin < a.margin))
+        margin = _worse_of(a.margin, b.margin, 1.0)
+    pick_b = _not_a(margin, a.margin)
+    has = a.has if _same_constant(a.has, b.has) else select_where(pick_b, a.has, b.has)
+    return _assembled(a, b, has, margin, lambda: pick_b, same_need=False)
 
-    def sel(x: Any, y: Any) -> Any:
-        if _same_constant(x, y):  # e.g. one need for both sides: no per-part choice
-            return x
-        return select_where(pick_b, x, y)
 
-    n = len(pick_b)
-    note = None if a.note is None and b.note is None else choose(
-        pick_b, a.note if a.note is not None else Words.same("", n),
-        b.note if b.note is not None else Words.same("", n))
-    out = CheckResult(a.name, a.kind, choose(pick_b, a.sense, b.sense), sel(a.need, b.need),
-                      sel(a.has, b.has), sel(a.margin, b.margin),
-                      Details(a.detail).merged(b.detail), note,
-                      tuple(dict.fromkeys(a.fields + b.fields)))
-    out.__dict__["code"] = ra + pick_b * (rb - ra)  # known already: no need to recompute
-    return out
+def _worse_of(x: Array, y: Array, limit: float) -> Array:
+    """Per part the worse of two values that pass at >= limit (see worse())."""
+    low = np.fmin(x, y)
+    return select_where(low < limit, np.minimum(x, y), low)
+
+
+def _not_a(chosen: Array, a: Array) -> npt.NDArray[np.bool_]:
+    """Where the chosen value is not a's (NaN counts as equal to NaN)."""
+    return ~((chosen == a) | (np.isnan(chosen) & np.isnan(a)))
+
+
+def _assembled(a: CheckResult, b: CheckResult, has: Array, margin: Array,
+               pick_b: Callable[[], npt.NDArray[np.bool_]], same_need: bool) -> CheckResult:
+    """The combined result; per-part need, sense and note follow the chosen side."""
+    n = len(has)
+    need = a.need if same_need or _same_constant(a.need, b.need) else select_where(
+        pick_b(), a.need, b.need)
+    sense = a.sense if _constant_word(a.sense) == _constant_word(b.sense) is not None \
+        else choose(pick_b(), a.sense, b.sense)
+    note = None
+    if a.note is not None or b.note is not None:
+        na = a.note if a.note is not None else Words.same("", n)
+        nb = b.note if b.note is not None else Words.same("", n)
+        note = Words(lambda: choose(pick_b(), na, nb).codes,
+                     na.words + tuple(w for w in nb.words if w not in na.words))
+    return CheckResult(a.name, a.kind, sense, need, has, margin,
+                       Details(a.detail).merged(b.detail), note,
+                       tuple(dict.fromkeys(a.fields + b.fields)))
 
 
 def _same_lower_limit(a: CheckResult, b: CheckResult) -> bool:
@@ -211,34 +233,6 @@ def _constant_word(w: Words) -> str | None:
     codes = w.codes
     return w.words[int(codes[0])] if codes.ndim == 1 and len(codes) and codes.strides == (0,) \
         else None
-
-
-def _worse_of_same_limit(a: CheckResult, b: CheckResult) -> CheckResult:
-    """worse() when both sides need the same positive amount from below.
-
-    The worse side is then the one with less: a known shortfall (fmin skips an unknown
-    side) beats an unknown side, which beats a pass (minimum keeps NaN). The same
-    outcome as the general rule, in a few whole-column operations.
-    """
-    need = float(a.need[0])
-    ha, hb = a.has, b.has
-    with np.errstate(invalid="ignore"):
-        low = np.fmin(ha, hb)
-        has = select_where(low < need, np.minimum(ha, hb), low)
-    margin = has / need
-
-    def side_b() -> npt.NDArray[np.bool_]:
-        return (has == hb) & (has != ha)  # ties and unknowns stay with a, as in worse()
-
-    n = len(has)
-    na = a.note if a.note is not None else Words.same("", n)
-    nb = b.note if b.note is not None else Words.same("", n)
-    note = None if a.note is None and b.note is None else Words(
-        lambda: choose(side_b(), na, nb).codes, na.words + tuple(
-            w for w in nb.words if w not in na.words))
-    return CheckResult(a.name, a.kind, a.sense, a.need, has, margin,
-                       Details(a.detail).merged(b.detail), note,
-                       tuple(dict.fromkeys(a.fields + b.fields)))
 
 
 def select_where(pick_b: npt.NDArray[np.bool_], x: Array, y: Array) -> Array:
@@ -301,7 +295,8 @@ class CheckTable:
         if not names:
             return [[] for _ in idx]
         code = STATUS_WORDS.index(status)
-        mask = np.stack([self.results[n].code[idx] == code for n in names], axis=1).tolist()
+        mask = np.stack([_codes(self.results[n].margin[idx]) == code for n in names],
+                        axis=1).tolist()
         return [[n for n, hit in zip(names, row, strict=True) if hit] for row in mask]
 
     def any_status(self, status: Status) -> npt.NDArray[np.bool_]:
@@ -312,8 +307,14 @@ class CheckTable:
         return out
 
     def verdicts(self) -> tuple[npt.NDArray[np.bool_], npt.NDArray[np.bool_]]:
-        """Per part: does any check fail; is any check unknown."""
-        return self.any_status("fail"), self.any_status("unknown")
+        """Per part: does any check fail (margin < 1); is any check unknown (NaN)."""
+        fail = np.zeros(len(self.labels), dtype=bool)
+        unknown = np.zeros(len(self.labels), dtype=bool)
+        with np.errstate(invalid="ignore"):
+            for r in self.results.values():
+                fail |= r.margin < 1
+                unknown |= np.isnan(r.margin)
+        return fail, unknown
 
     def rank_margin(self) -> Array:
         """Per part, the smallest margin over the checks that measure headroom (not stock, supply)."""

@@ -152,3 +152,32 @@ def test_json_records_built_by_column_equal_the_per_part_records(frame: Any) -> 
     table = run_checks(Parts(frame), minimum_specs(requirement_from(STAGES[0])))
     rows = [0, 5, 17, 399, 5]
     assert table.records_for(rows) == [table.records(i) for i in rows]
+
+
+def _rule(ma: float, mb: float) -> str:
+    """The worse side by the rule of picker.design.checks.worse, one part at a time:
+    fail < unknown < pass, then the smaller margin, a on a tie."""
+    def rank(m: float) -> int:
+        return 1 if math.isnan(m) else (2 if m >= 1 else 0)
+    ra, rb = rank(ma), rank(mb)
+    return "b" if rb < ra or (rb == ra and mb < ma) else "a"
+
+
+@pytest.mark.parametrize("same_need", [True, False])
+def test_worse_follows_the_rule_part_by_part(same_need: bool) -> None:
+    from picker.design.checks import result, worse
+
+    rng = np.random.default_rng(5)
+    values = np.array([0.5, 1.0, 2.0, 3.0, math.nan, 0.0, math.inf])
+    ha = rng.choice(values, 500)
+    hb = rng.choice(values, 500)
+    a = result("supply", "voltage", ">=", 1.0, ha, note="rated maximum")
+    b = (result("supply", "voltage", ">=", 1.0, hb, note="rated minimum") if same_need
+         else result("supply", "voltage", "<=", 2.0, hb, note="rated minimum"))
+    w = worse(a, b)
+    for i in range(500):
+        side = a if _rule(a.margin[i], b.margin[i]) == "a" else b
+        assert_array_equal([w.margin[i], w.has[i], w.need[i]],
+                           [side.margin[i], side.has[i], side.need[i]])
+        assert (w.sense[i], w.note[i], w.status[i]) == (side.sense[i], side.note[i],
+                                                        side.status[i])
