@@ -82,7 +82,9 @@ def pick(stage: dict[str, Any], by: str, top: int | None, strict: bool, listed: 
     parts = Parts.from_columns(*store.parts_columns(needed_columns(minimum_specs(req))))
     sel = select(parts, req, by=by, top=top, strict=strict)  # type: ignore[arg-type]
     if as_json:
-        stdout = click.get_text_stream("stdout")
+        import sys
+
+        stdout = sys.stdout  # click.get_text_stream is deprecated from click 8.5
         to_json_rows(sel.json_items(cap), write=stdout.write)  # one part per line, streamed
         stdout.write("\n")
         _cautions_to_stderr(sel.cautions)
