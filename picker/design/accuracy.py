@@ -52,19 +52,35 @@ _GAIN_NOTES = ("", "Ro unknown, taken as 0", "Rin unknown, taken as ∞",
 
 
 def _gains(p: Parts, st: Stage, f: float) -> tuple[Array, Array]:
-    """|G| at DC and at f, per part (see gain_accuracy)."""
+    """|G| at DC and at f, per part (see gain_accuracy).
+
+    Written with in-place operations: at a million parts each array is 8 MB, and
+    updating one in place moves less memory than writing a new one.
+    """
     a0, gbw = p["aol_v_per_v"], p["gbw_hz"]
     lp = _loop(p, st)
+    n0, d0 = lp.n0, lp.d0
     with np.errstate(invalid="ignore", divide="ignore"):
-        d1 = _same(lp.d1)
-        num = lp.n0 + _same(lp.n1) * a0
-        den = lp.d0 + (a0 if isinstance(d1, float) and d1 == 1 else d1 * a0)
-        g_dc = np.abs(num / den)
+        num = np.multiply(a0, _same(lp.n1))
+        num += n0
+        den = np.multiply(a0, _same(lp.d1))
+        den += d0
+        g_dc = np.divide(num, den)
+        np.abs(g_dc, out=g_dc)
         if not f:
             return g_dc, g_dc
-        x = a0 * (f / gbw)
-        n0x, d0x = lp.n0 * x, lp.d0 * x
-        return g_dc, np.sqrt((num * num + n0x * n0x) / (den * den + d0x * d0x))
+        x = np.divide(f, gbw)
+        x *= a0
+        n0x = np.multiply(n0, x)
+        x *= d0  # now d0·x
+        num *= num
+        n0x *= n0x
+        num += n0x
+        den *= den
+        x *= x
+        den += x
+        num /= den
+        return g_dc, np.sqrt(num, out=num)
 
 
 def _same(x: Array) -> Array | float:
@@ -74,9 +90,12 @@ def _same(x: Array) -> Array | float:
 
 def _errors(p: Parts, st: Stage, f: float) -> tuple[Array, Array]:
     """Relative gain errors | |G|/G - 1 | at DC and at f, per part."""
-    g_dc, g_f = _gains(p, st, f)
-    with np.errstate(invalid="ignore"):
-        return np.abs(g_dc * (1 / st.gain) - 1), np.abs(g_f * (1 / st.gain) - 1)
+    out = []
+    for g in _gains(p, st, f):
+        e = np.multiply(g, 1 / st.gain)
+        e -= 1
+        out.append(np.abs(e, out=e))
+    return out[0], out[1]
 
 
 def gain_accuracy(p: Parts, s: Spec) -> CheckResult:
@@ -127,8 +146,8 @@ def _terms(terms: list[tuple[float, Array]], n: int) -> tuple[Array, npt.NDArray
             parts.append(t)
     if not parts:
         return np.zeros(n), np.zeros(n, dtype=bool)
-    total = parts[0].copy()
-    for t in parts[1:]:
+    total = parts[0] + parts[1] if len(parts) > 1 else parts[0].copy()
+    for t in parts[2:]:
         total += t
     unknown = np.isnan(total)  # NaN when any term is unknown
     rows = np.flatnonzero(unknown)
@@ -139,9 +158,11 @@ def _terms(terms: list[tuple[float, Array]], n: int) -> tuple[Array, npt.NDArray
 
 def _partial(name: str, need: float, known: Array, unknown: npt.NDArray[np.bool_],
              detail: dict[str, Any], note: str, fields: tuple[str, ...]) -> CheckResult:
-    """Fail on what is known; otherwise unknown while any needed parameter is missing."""
+    """Fail on what is known; otherwise unknown while any needed parameter is missing.
+
+    ``known`` becomes ``has`` (changed in place)."""
     over = known > need
-    has = known.copy()
+    has = known
     has[unknown & ~over] = np.nan
     notes = Words(lambda: (unknown & over).view(np.int8), ("", note))
     return result(name, "voltage", "<=", need, has, detail, notes, fields)  # type: ignore[arg-type]
@@ -180,8 +201,11 @@ def noise(p: Parts, s: Spec) -> CheckResult:
     terms2 = [(ng**2, en * en), (i_gain2, cur * cur)]
     known2, unknown = _terms(terms2, len(p))
     no_bw = np.isnan(enbw)
+    total = known2  # √((known2 + resistor density²)·ENBW), in place
+    total += r_density2
+    total *= enbw
     with np.errstate(invalid="ignore"):
-        total = np.sqrt((known2 + r_density2) * enbw)
+        np.sqrt(total, out=total)
     detail = {"en_out": lambda: ng * en, "in_out": lambda: math.sqrt(i_gain2) * cur,
               "r_out": lambda: np.full(len(p), math.sqrt(r_density2)),
               "f_closed_loop": lambda: _pole(p, st), "enbw": lambda: math.pi / 2 * _pole(p, st)}

@@ -116,8 +116,15 @@ def loop(stage: Stage, rin: npt.ArrayLike, ro: npt.ArrayLike) -> Loop:
     c10 = rf + zp + rf * zp * gg
     c01 = gg + gl + rf * gg * gl
     c11 = 1 + gg * zp + gl * (rf + zp) + rf * zp * gg * gl
-    d0 = c00 + c10 * gin + ro_a * (c01 + c11 * gin)
-    n0 = ro_a * (gg * kg + (kp + gg * kg * zp) * gin)
+    d0 = np.multiply(gin, c11)  # d0 = c00 + c10·Gin + Ro·(c01 + c11·Gin), in place
+    d0 += c01
+    d0 *= ro_a
+    t = np.multiply(gin, c10)
+    d0 += t
+    d0 += c00
+    n0 = np.multiply(gin, kp + gg * kg * zp, out=t)  # n0 = Ro·(Gg·kg + (kp + Gg·kg·zp)·Gin)
+    n0 += gg * kg
+    n0 *= ro_a
     shape = d0.shape
     n1 = np.broadcast_to(kp * (1 + rf * gg) - kg * rf * gg, shape)
     d1 = np.broadcast_to(1.0, shape)
@@ -177,8 +184,11 @@ def closed_loop_pole_hz(lp: Loop, a0: npt.ArrayLike, gbw_hz: npt.ArrayLike) -> A
     a0 = np.asarray(a0, dtype=float)
     gbw = np.asarray(gbw_hz, dtype=float)
     with np.errstate(invalid="ignore", divide="ignore"):
-        exact = gbw / a0 * (1 + a0 * lp.beta)
-    return np.where(np.isnan(a0), gbw * lp.beta, exact)  # type: ignore[no-any-return]
+        # GBW·(1/A0 + d1/d0): the same pole; fmax turns 1/NaN into 0 (A0 -> ∞)
+        f = np.fmax(1.0 / a0, 0.0)
+        f += lp.beta
+        f *= gbw
+    return f  # type: ignore[no-any-return]
 
 
 def transfer(lp: Loop, a0: npt.ArrayLike, gbw_hz: npt.ArrayLike) -> tuple[Array, Array, Array, Array]:
