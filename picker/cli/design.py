@@ -48,8 +48,8 @@ def spec(stage: dict[str, Any], explain: bool, as_json: bool) -> None:
 @click.option("--top", type=click.IntRange(min=1, max=1_000_000_000), help="show only the best N accepted parts")
 @click.option("--strict", is_flag=True, help="reject parts with unknown parameters")
 @click.option("--list", "listed", metavar="N|all",
-              help="how many rejected and unverified parts to write out, closest first "
-              "(default 20; with --json all, unless given)")
+              help="how many accepted (best first), rejected and unverified parts (closest "
+              "first) to write out (default 20; with --json all, unless given)")
 @click.option("--json", "as_json", is_flag=True, help="JSON on stdout (SI base units)")
 @click.option("--reserve", is_flag=True,
               help="take the top accepted part for --for PROJECT (asks first)")
@@ -75,7 +75,7 @@ def pick(stage: dict[str, Any], by: str, top: int | None, strict: bool, listed: 
 
     if reserve and not project:
         raise click.UsageError("--reserve needs --for PROJECT, the project the parts go to")
-    cap = _listed(listed) if listed is not None else (None if as_json else 20)
+    cap = _listed(listed) if listed is not None else (None if as_json else max(20, top or 0))
     req = build_requirement(stage)
     store = open_store(db)
     # only the columns this stage's checks and the listing read, straight into arrays

@@ -130,8 +130,9 @@ def _limiting(table: Any, i: int) -> str:
 def pick_text(sel: Any, max_listed: int | None = None) -> str:
     """``picker pick``: accepted (ranked), unverified, rejected with reasons, nearest misses.
 
-    ``max_listed`` caps how many unverified and rejected parts are written out (closest
-    first); the rest are counted, so a catalogue-sized stockroom stays readable.
+    ``max_listed`` caps how many accepted (best first), unverified and rejected parts
+    (closest first) are written out; the rest are counted, so a catalogue-sized
+    stockroom stays readable.
     """
     from tabulate import tabulate
 
@@ -141,13 +142,14 @@ def pick_text(sel: Any, max_listed: int | None = None) -> str:
              "stock": "channels on hand, most first"}[sel.by]
     if sel.accepted:
         rows = []
-        for k, e in enumerate(sel.accepted, 1):
+        listed = list(sel.accepted)[:max_listed]
+        for k, e in enumerate(listed, 1):
             price = parts["price"][e.row]
             rows.append([k, e.part, f"{e.margin:.3g}" if math.isfinite(e.margin) else "-",
                          _limiting(t, e.row), "-" if math.isnan(price) else f"{price:.2f}",
                          _count(parts["qty"][e.row]), _count(parts["channels"][e.row])])
-        shown = (f"{len(sel.accepted)}" if len(sel.accepted) == sel.accepted_total
-                 else f"best {len(sel.accepted)} of {sel.accepted_total}")
+        shown = (f"{len(listed)}" if len(listed) == sel.accepted_total
+                 else f"best {len(listed)} of {sel.accepted_total}")
         lines.append(f"Accepted ({shown}), by {order}:")
         lines.append(tabulate(rows, headers=["#", "part", "margin", "limited by", "price",
                                              "qty", "ch"], disable_numparse=True))
