@@ -110,8 +110,11 @@ def _listed(text: str) -> int | None:
 @click.command()
 @click.argument("part")
 @requirement_options
+@click.option("--json", "as_json", is_flag=True,
+              help='JSON on stdout: {"part", "spec", "verdict", "checks": {NAME: {"status", '
+              '"need", "has", "margin"}}} (SI base units)')
 @db_option
-def why(part: str, stage: dict[str, Any], db: str | None) -> None:
+def why(part: str, stage: dict[str, Any], as_json: bool, db: str | None) -> None:
     """The full check sheet of one PART for a stage: each check with formula and numbers."""
     from picker.design.checks import Parts
     from picker.design.rank import check_part
@@ -123,4 +126,14 @@ def why(part: str, stage: dict[str, Any], db: str | None) -> None:
     store.get(part)  # NotFound, with a hint, when the label is not in the stockroom
     parts = Parts(store.parts_frame(conditions=[Condition("label", "=", part)]))
     spec_, table = check_part(parts, req)
+    if as_json:
+        from picker.report.tables import to_json
+
+        checks = table.records(0)
+        statuses = {c["status"] for c in checks.values()}
+        verdict = "fail" if "fail" in statuses else "unknown" if "unknown" in statuses else "pass"
+        click.echo(to_json({"part": part, "spec": spec_.to_json(), "verdict": verdict,
+                            "checks": checks}))
+        _cautions_to_stderr(spec_.cautions)
+        return
     click.echo(why_text(spec_, table, parts))

@@ -39,6 +39,7 @@ def render(net: Network, *, part: str | None = None,
     tol = fmt(net.tolerance, "ratio")
     lines = [f"{net.topology} stage, gain {net.target_gain:.6g} V/V, {net.series} resistors, "
              f"±{tol}" + (f", limits from {part}" if part else "")]
+    lines += [f"!! {c}" for c in cautions or []]  # first, where a person looks
     for slot in net.slots:
         role = _ROLE.get(net.topology, {}).get(slot.name, "")
         lines.append(f"  {position_line(net, slot.name)}" + (f"   {role}" if role else ""))
@@ -62,7 +63,6 @@ def render(net: Network, *, part: str | None = None,
     if net.notes:
         lines.append("notes:")
         lines += [f"  - {x}" for x in net.notes]
-    lines += cautions or []
     return "\n".join(lines)
 
 

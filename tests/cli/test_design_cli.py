@@ -142,3 +142,14 @@ def test_pick_lists_only_the_closest_rejections(db: str) -> None:
     every = run("pick", *stage, "--list", "all").stdout
     assert all(f"  {name}\n" in every for name in names)
     fails("pick", *stage, "--list", "some")
+
+
+def test_why_json_matches_pick(db: str) -> None:
+    stage = ["--topology", "inverting", "--gain", "10", "--vin", "0.5Vpk", "--freq", "20kHz",
+             "--rails", "±12", "--load", "2k", "--db", db]
+    picked = json.loads(run("pick", *stage, "--json").stdout)
+    entry = next(r for r in picked["rejected"] if r["part"] == "bip-gp-a")
+    sheet = json.loads(run("why", "bip-gp-a", *stage, "--json").stdout)
+    assert sheet["verdict"] == "fail" and sheet["spec"] == picked["spec"]
+    assert sheet["checks"] == entry["checks"]
+    assert sorted(n for n, c in sheet["checks"].items() if c["status"] == "fail") == sorted(entry["fails"])
