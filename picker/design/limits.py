@@ -3,7 +3,8 @@ current, supply span and stock. Pure functions over part arrays (one element per
 
 Swing and common mode are measured as distances from the reference level: the part
 has ``(V+ - headroom+) - ref`` towards V+ and ``ref - (V- + headroom-)`` towards V-,
-and the stage needs ``m·Vp`` on each side (m the design margin). The worse side is
+and the stage needs ``Vp`` on each side (not scaled by the design margin: see
+picker.design.spec). The worse side is
 reported. Headrooms are the datasheet's "output (or input) within X V of the rail".
 """
 
@@ -18,7 +19,7 @@ from picker.design.spec import Spec
 
 
 def swing(p: Parts, s: Spec) -> CheckResult:
-    """Output must reach ref ± m·Vp,out: part's rail minus output headroom, per side."""
+    """Output must reach ref ± Vp,out: part's rail minus output headroom, per side."""
     req = s.requirement
     need = s.minimum["swing_pos"] - req.ref  # type: ignore[operator]
     up = result("swing", "voltage", ">=", need, (req.rail_pos - req.ref) - p["out_head_pos_v"],
@@ -29,7 +30,7 @@ def swing(p: Parts, s: Spec) -> CheckResult:
 
 
 def common_mode(p: Parts, s: Spec) -> CheckResult:
-    """Inputs reach ref ± m·|kp|·Vp,in; the part's common-mode range, per side."""
+    """Inputs reach ref ± |kp|·Vp,in; the part's common-mode range, per side."""
     req = s.requirement
     lo, hi = s.common_mode
     up = result("common_mode", "voltage", ">=", hi - req.ref,

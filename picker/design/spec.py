@@ -1,9 +1,12 @@
 """Minimum op-amp specifications a stage requirement implies, each with its formula.
 
 The design margin m makes every need stricter: amounts the part must deliver (slew
-rate, swing, common-mode range, output current) are multiplied by m, and allowed
-errors (gain error, offset, noise) are divided by m. ``--margin 1`` gives the bare
-physics minimums.
+rate, output current, and the A0, Rin and GBW that follow from the gain budget) are
+multiplied by m, and allowed errors (gain error, offset, noise) are divided by m.
+Output swing and input common-mode range are not scaled: the amplitude is already the
+stated largest signal and the headrooms in the parts table are the datasheet's limits,
+so a stage that swings 4 Vpp on a 5 V rail-to-rail part is not refused for want of
+25% more than the rails. ``--margin 1`` gives the bare physics minimums.
 
 Gain-error budget e = gain error / m, split so that a part exactly at all three
 minimums (A0, Rin, GBW, with Ro = 0) lands exactly on the budget at the top frequency:
@@ -157,21 +160,22 @@ def minimum_specs(req: Requirement) -> Spec:
     ng = st.noise_gain
     budget, a0, rin, gbw = _split(req, st)
     slew = 2 * math.pi * f * vp * m
-    swing_pos, swing_neg = ref + m * vp, ref - m * vp
+    swing_pos, swing_neg = ref + vp, ref - vp  # not scaled by m (module docstring)
     vcm = st.cm_per_volt * req.vin
-    cm = (ref - m * vcm, ref + m * vcm)
+    cm = (ref - vcm, ref + vcm)
     amps = m * vp * st.amps_per_volt_out
     minimum: dict[str, float | None] = {
         "slew_rate": slew, "gbw": gbw, "open_loop_gain": a0,
         "swing_pos": swing_pos, "swing_neg": swing_neg, "output_current": amps,
         "input_resistance": rin, "supply_span": req.span,
     }
-    notes = [f"design margin {m:g}: amounts x{m:g}, allowed errors /{m:g}",
+    notes = [f"design margin {m:g}: amounts x{m:g}, allowed errors /{m:g} "
+             "(swing and common-mode range are checked at the stated amplitude)",
              "minimum A0, Rin and GBW assume Ro = 0; each part's check uses its own Ro"]
     if swing_pos > req.rail_pos or swing_neg < req.rail_neg:
-        notes.append(f"with margin {m:g} the output would have to reach {swing_neg:.4g} V .. "
-                     f"{swing_pos:.4g} V, beyond the rails: no part can pass swing; lower the "
-                     "amplitude or the margin, or widen the rails")
+        notes.append(f"the output would have to reach {swing_neg:.4g} V .. {swing_pos:.4g} V, "
+                     "beyond the rails: no part can pass swing; lower the amplitude, move "
+                     "--ref or widen the rails")
     if budget.opamp <= 0:
         notes.append(f"the network alone misses the gain budget ({budget.network:+.3%} vs "
                      f"{budget.allowed:.3%}); no op-amp can meet it")
@@ -229,15 +233,15 @@ def _explain(s: Spec) -> list[Explained]:
         "GBW >= f·A0,min/√(L²/(1-ℓ)² - (1+L)²), L = (1 - e_dc)/e_dc", gbw_numbers))
     rows += [
         Explained("swing_pos", "output must reach (toward V+)", mn["swing_pos"], "voltage",
-                  "ref + m·Vp,out",
-                  f"{ref:.4g} V + {m:g} × {vp:.4g} V = {mn['swing_pos']:.4g} V "
+                  "ref + Vp,out",
+                  f"{ref:.4g} V + {vp:.4g} V = {mn['swing_pos']:.4g} V "
                   f"(within {req.rail_pos - mn['swing_pos']:.3g} V of V+)"),  # type: ignore[operator]
         Explained("swing_neg", "output must reach (toward V-)", mn["swing_neg"], "voltage",
-                  "ref - m·Vp,out",
-                  f"{ref:.4g} V - {m:g} × {vp:.4g} V = {mn['swing_neg']:.4g} V "
+                  "ref - Vp,out",
+                  f"{ref:.4g} V - {vp:.4g} V = {mn['swing_neg']:.4g} V "
                   f"(within {mn['swing_neg'] - req.rail_neg:.3g} V of V-)"),  # type: ignore[operator]
         Explained("common_mode", "input common-mode range", s.common_mode[1] - s.common_mode[0],
-                  "voltage", "ref ± m·|kp|·Vp,in (the inputs follow the non-inverting input)",
+                  "voltage", "ref ± |kp|·Vp,in (the inputs follow the non-inverting input)",
                   f"{s.common_mode[0]:.4g} V .. {s.common_mode[1]:.4g} V"
                   + (" (inputs sit at the reference)" if st.cm_per_volt == 0 else "")),
         Explained("output_current", "minimum output current", mn["output_current"], "current",
