@@ -47,6 +47,13 @@ def _assignments(pairs: tuple[str, ...], where: str) -> dict[str, str]:
     return out
 
 
+def _who() -> str:
+    """Who the movement log names for a quantity set by edit or import --update."""
+    from picker.cli.stock import who
+
+    return who(None)
+
+
 @click.group()
 def parts() -> None:
     """List, show, add, edit, remove, import and export op-amp parameter sets."""
@@ -145,7 +152,8 @@ def edit(label: str, values: tuple[str, ...], db: str | None) -> None:
     before = store.get(label)
     changes = record(_assignments(values, "edit"))
     check_consistency({**before, **changes})
-    store.edit(label, changes)
+    by = _who() if "qty" in changes else ""
+    store.edit(label, changes, by=by)
     click.echo(f"changed {label}: {', '.join(changes)}")
 
 
@@ -181,9 +189,10 @@ def import_(file: Path, update: bool, dry_run: bool, db: str | None) -> None:
     if len(records) > 5_000 and sys.stderr.isatty():
         with click.progressbar(length=len(records), label="importing", file=sys.stderr) as bar:
             report = store.import_records(records, update=update, dry_run=dry_run,
-                                          progress=bar.update)
+                                          progress=bar.update, by=_who() if update else "")
     else:
-        report = store.import_records(records, update=update, dry_run=dry_run)
+        report = store.import_records(records, update=update, dry_run=dry_run,
+                                      by=_who() if update else "")
     verb = "would add" if dry_run else "added"
     click.echo(f"{verb} {report.added} and {'would update' if dry_run else 'updated'} "
                f"{report.updated} part(s) from {file}")

@@ -195,7 +195,10 @@ class Store:
     def add(self, values: Mapping[str, Any]) -> None:
         self.import_records([values], update=False)
 
-    def edit(self, label: str, changes: Mapping[str, Any]) -> None:
+    def edit(self, label: str, changes: Mapping[str, Any], by: str = "") -> None:
+        """Change fields of one part. A new quantity is logged as a count movement
+        (reason ``count``, note ``parts edit``) in the same transaction, so the movement
+        log still explains every unit on hand."""
         from sqlalchemy import update
         from sqlalchemy.exc import IntegrityError
 
@@ -203,17 +206,24 @@ class Store:
 
         if not changes:
             raise Conflict(f"nothing to change for {label!r}; give field=value pairs")
+        now = _now()
         with self._begin() as conn:
+            # lock the row and read its quantity in one statement
+            row = conn.execute(
+                update(parts).where(parts.c.label == label).values(updated_at=now)
+                .returning(parts.c.id, parts.c.qty)
+            ).first()
+            if row is None:
+                raise NotFound(f"part {label!r} is not in the stockroom; nothing changed")
             try:
-                res = conn.execute(
-                    update(parts)
-                    .where(parts.c.label == label)
-                    .values(**dict(changes), updated_at=_now())
-                )
+                conn.execute(update(parts).where(parts.c.id == row.id).values(**dict(changes)))
             except IntegrityError as exc:
                 raise Conflict(_integrity_message(exc, label)) from None
-            if res.rowcount == 0:
-                raise NotFound(f"part {label!r} is not in the stockroom; nothing changed")
+            new_qty = changes.get("qty")
+            if new_qty is not None and int(new_qty) != int(row.qty):
+                _log_quantity(conn, row.id, str(changes.get("label", label)),
+                              int(new_qty) - int(row.qty), int(new_qty), "count", by,
+                              "parts edit", now)
 
     def remove(self, label: str) -> None:
         from sqlalchemy import delete
@@ -231,6 +241,7 @@ class Store:
         update: bool,
         dry_run: bool = False,
         progress: Callable[[int], None] | None = None,
+        by: str = "",
     ) -> ImportReport:
         """Insert (and with update=True overwrite) parts, all or nothing.
 
@@ -242,11 +253,11 @@ class Store:
             r.setdefault("updated_at", now)
             if r["updated_at"] is None:
                 r["updated_at"] = now
-            if r.get("qty") is None:
-                r["qty"] = 0
+            # a new part without a quantity has none on hand (_full); an update without a
+            # qty column leaves the quantity alone
         labels = [r["label"] for r in rows]
         try:
-            return self._write_records(rows, labels, update, dry_run, progress)
+            return self._write_records(rows, labels, update, dry_run, progress, by)
         except _DryRun:
             return ImportReport(
                 added=sum(1 for r in rows if r["label"] not in self._existing(labels)),
@@ -275,6 +286,7 @@ class Store:
         update: bool,
         dry_run: bool,
         progress: Callable[[int], None] | None,
+        by: str = "",
     ) -> ImportReport:
         from sqlalchemy import bindparam, insert, select
         from sqlalchemy import update as sql_update
@@ -297,6 +309,7 @@ class Store:
                 )
             new = [r for r in rows if r["label"] not in existing]
             old = [r for r in rows if r["label"] in existing]
+            before = _locked_quantities(conn, [r["label"] for r in old if "qty" in r])
             done = 0
             try:
                 for i in range(0, len(new), CHUNK):
@@ -322,12 +335,41 @@ class Store:
                             progress(len(changed))
             except IntegrityError as exc:
                 raise Conflict(_integrity_message(exc, "")) from None
+            for r in old:
+                if r["label"] in before and r.get("qty") is not None:
+                    part_id, had = before[r["label"]]
+                    if int(r["qty"]) != had:
+                        _log_quantity(conn, part_id, r["label"], int(r["qty"]) - had,
+                                      int(r["qty"]), "import", by, "parts import --update",
+                                      _now())
             if dry_run:
                 raise _DryRun
         return ImportReport(added=len(new), updated=len(old), dry_run=dry_run)
 
     def _begin(self):  # type: ignore[no-untyped-def]
         return _Transaction(self)
+
+
+def _locked_quantities(conn: Connection, labels: Sequence[str]) -> dict[str, tuple[int, int]]:
+    """label -> (id, qty) of existing parts, their rows locked until the transaction ends."""
+    from sqlalchemy import select
+
+    from picker.store.models import parts
+
+    out: dict[str, tuple[int, int]] = {}
+    for i in range(0, len(labels), 500):
+        stmt = (select(parts.c.label, parts.c.id, parts.c.qty)
+                .where(parts.c.label.in_(list(labels[i : i + 500]))).with_for_update())
+        out.update({r.label: (int(r.id), int(r.qty)) for r in conn.execute(stmt)})
+    return out
+
+
+def _log_quantity(conn: Connection, part_id: int, label: str, delta: int, qty_after: int,
+                  reason: str, by: str, note: str, at: datetime) -> None:
+    """A movement row for a quantity set outside the stock commands (edit, import)."""
+    from picker.store.stock import _log
+
+    _log(conn, part_id, label, delta, qty_after, None, reason, by or "unknown", note, at)  # type: ignore[arg-type]
 
 
 class _DryRun(Exception):

@@ -143,3 +143,24 @@ def test_injection_text_is_stored_literally(store: Store) -> None:
     store.add({"label": label, "notes": note})
     assert store.get(label)["notes"] == note
     assert store.count() == 6
+
+
+def test_update_without_qty_column_keeps_quantities(store: Store) -> None:
+    had = store.get("bip-gp-a")["qty"]
+    assert had > 0
+    store.import_records([{"label": "bip-gp-a", "price": 0.99}, {"label": "brand-new"}], update=True)
+    assert store.get("bip-gp-a")["qty"] == had and store.get("bip-gp-a")["price"] == 0.99
+    assert store.get("brand-new")["qty"] == 0
+
+
+def test_quantity_set_by_edit_or_import_is_logged(store: Store) -> None:
+    """On hand = start + sum of the log, also when edit or import --update set a quantity."""
+    from picker.store import stock
+
+    start = store.get("bip-gp-a")["qty"]
+    store.edit("bip-gp-a", {"qty": start + 5, "notes": "recounted"}, by="tester")
+    store.import_records([{"label": "bip-gp-a", "qty": start - 2}], update=True, by="tester")
+    store.edit("bip-gp-a", {"notes": "no quantity change"}, by="tester")
+    rows = stock.log(store, "bip-gp-a")
+    assert [(m.delta, m.reason, m.by) for m in rows] == [(5, "count", "tester"), (-7, "import", "tester")]
+    assert start + sum(m.delta for m in rows) == store.get("bip-gp-a")["qty"] == start - 2
