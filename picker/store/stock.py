@@ -88,6 +88,13 @@ def _name(value: str | None, where: str, limit: int, *, required: bool) -> str |
     return text
 
 
+def _checked(qty: int, by: str, note: str | None, *,
+             zero_ok: bool = False) -> tuple[int, str | None, str | None]:
+    """The quantity, who and note of a movement, each checked (BadValue names the option)."""
+    return (_qty(qty, "QTY", zero_ok=zero_ok), _name(by, "--by", NAME_MAX, required=True),
+            _name(note, "--note", NOTE_MAX, required=False))
+
+
 def parse_since(text: str) -> datetime:
     """A --since value (ISO date or date-time; local time unless it carries an offset)."""
     raw = text.strip()
@@ -173,10 +180,8 @@ def take(store: Store, label: str, qty: int, project: str, by: str,
 
     from picker.store.models import parts
 
-    n = _qty(qty, "QTY")
+    n, who, text = _checked(qty, by, note)
     proj = _name(project, "--for", PROJECT_MAX, required=True)
-    who = _name(by, "--by", NAME_MAX, required=True)
-    text = _name(note, "--note", NOTE_MAX, required=False)
     at = _now()
     with _transaction(store) as conn:
         row = conn.execute(
@@ -202,10 +207,8 @@ def return_(store: Store, label: str, qty: int, project: str, by: str,
 
     from picker.store.models import movements, parts
 
-    n = _qty(qty, "QTY")
+    n, who, text = _checked(qty, by, note)
     proj = _name(project, "--for", PROJECT_MAX, required=True)
-    who = _name(by, "--by", NAME_MAX, required=True)
-    text = _name(note, "--note", NOTE_MAX, required=False)
     at = _now()
     with _transaction(store) as conn:
         # the UPDATE comes first: it locks the part's row before the log is read
@@ -238,9 +241,7 @@ def restock(store: Store, label: str, qty: int, by: str, note: str | None = None
 
     from picker.store.models import parts
 
-    n = _qty(qty, "QTY")
-    who = _name(by, "--by", NAME_MAX, required=True)
-    text = _name(note, "--note", NOTE_MAX, required=False)
+    n, who, text = _checked(qty, by, note)
     at = _now()
     with _transaction(store) as conn:
         row = conn.execute(
@@ -260,9 +261,7 @@ def count(store: Store, label: str, qty: int, by: str, note: str | None = None) 
 
     from picker.store.models import parts
 
-    n = _qty(qty, "QTY", zero_ok=True)
-    who = _name(by, "--by", NAME_MAX, required=True)
-    text = _name(note, "--note", NOTE_MAX, required=False)
+    n, who, text = _checked(qty, by, note, zero_ok=True)
     at = _now()
     with _transaction(store) as conn:
         # lock the row and read its quantity in one statement (no other writer between)

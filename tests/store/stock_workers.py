@@ -33,7 +33,7 @@ def takes(url: str, label: str, n: int, project: str, barrier: Any, out: Any) ->
                 report["refused"].append(str(exc))
         report["seconds"] = time.perf_counter() - t0
         store.dispose()
-    except BaseException:  # noqa: BLE001 - reported to the test, which fails on it
+    except BaseException:  # reported to the test, which fails on it
         report["errors"].append(traceback.format_exc())
     out.put(report)
 
@@ -70,7 +70,7 @@ def mixed(url: str, label: str, n: int, project: str, seed: int, barrier: Any,
                 report["errors"].append(repr(exc))
         report["seconds"] = time.perf_counter() - t0
         store.dispose()
-    except BaseException:  # noqa: BLE001
+    except BaseException:
         report["errors"].append(traceback.format_exc())
     out.put(report)
 
@@ -88,7 +88,7 @@ def writer(url: str, label: str, n: int, started: Any, out: Any) -> None:
             if i == 10:
                 started.set()
         store.dispose()
-    except BaseException:  # noqa: BLE001
+    except BaseException:
         report["errors"].append(traceback.format_exc())
     started.set()
     out.put(report)
