@@ -96,7 +96,23 @@ class PickerGroup(click.Group):
         except PickerError as exc:
             _error(str(exc))
             return EXIT_BAD_INPUT
+        except Exception as exc:
+            # a database that fails underneath (damaged file, server gone) is the
+            # environment, not a bug: one line, exit 2; anything else propagates (exit 1)
+            if not _is_database_error(exc):
+                raise
+            _error(f"the stockroom failed: {getattr(exc, 'orig', exc)}; check the --db file "
+                   "or server (`picker db backup` and `picker db restore` move a stockroom)")
+            return EXIT_BAD_INPUT
         return rv if isinstance(rv, int) else 0
+
+
+def _is_database_error(exc: BaseException) -> bool:
+    if "sqlalchemy" not in sys.modules:
+        return False
+    from sqlalchemy.exc import DBAPIError
+
+    return isinstance(exc, DBAPIError)
 
 
 def _error(message: str) -> None:

@@ -111,12 +111,13 @@ def script_head() -> str:
 
 def check(engine: Engine, where: str) -> None:
     """Refuse a database whose schema is older or newer than this code."""
-    from sqlalchemy.exc import OperationalError, ProgrammingError
+    from sqlalchemy.exc import DatabaseError
 
     try:
         rev = current(engine)
-    except (OperationalError, ProgrammingError) as exc:
-        raise StoreError(f"cannot read the stockroom at {where}: {exc.orig}") from None
+    except DatabaseError as exc:  # also "file is not a database"
+        raise StoreError(f"cannot read the stockroom at {where}: {exc.orig}; is it a "
+                         "picker stockroom (a SQLite file made by `picker init`)?") from None
     if rev == HEAD:
         return
     if rev is None:

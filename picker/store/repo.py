@@ -82,11 +82,11 @@ class Store:
         return redact(self.url)
 
     def upgrade(self, revision: str = "head") -> None:
-        from sqlalchemy.exc import OperationalError, ProgrammingError
+        from sqlalchemy.exc import DatabaseError
 
         try:
             migrate.upgrade(self.engine, revision)
-        except (OperationalError, ProgrammingError) as exc:
+        except DatabaseError as exc:  # also "file is not a database"
             raise StoreError(
                 f"cannot set up the stockroom at {self.where}: {redact(str(exc.orig))}"
             ) from None

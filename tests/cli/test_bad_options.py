@@ -112,3 +112,25 @@ def test_secret_never_printed_by_any_command(tmp_path: Path) -> None:
         assert secret not in text, words
         if result.exception is not None and not isinstance(result.exception, SystemExit):
             assert secret not in repr(result.exception)
+
+
+def test_a_file_that_is_not_a_database_is_one_line_for_every_command(tmp_path: Path) -> None:
+    """--db naming a text file: exit 2, one line, for every command that opens a stockroom."""
+    junk = tmp_path / "notes.db"
+    junk.write_text("not a database, just notes\n" * 50, encoding="utf-8")
+    runner = CliRunner()
+    for words, cmd in _commands():
+        if not any(p.name == "db" for p in cmd.params):
+            continue
+        args = [_good_argument(p.name or "") for p in cmd.params
+                if isinstance(p, click.Argument) and p.required]
+        args = [str(tmp_path / a) if a.endswith(".csv") else a for a in args]
+        stage = (["--topology", "follower", "--vin", "1", "--freq", "1kHz", "--rails", "±5"]
+                 if any(p.name == "stage" or p.name == "topology" for p in cmd.params) else [])
+        result = runner.invoke(cli, [*words, *args, *stage, "--db", str(junk)], input="y\n")
+        assert result.exception is None or isinstance(result.exception, SystemExit), (
+            words, repr(result.exception))
+        if result.exit_code != 0:
+            assert result.exit_code == 2, (words, result.output)
+            lines = result.stderr.strip().splitlines()
+            assert len(lines) == 1 and lines[0].startswith("picker: error: "), (words, lines)
