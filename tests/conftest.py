@@ -5,6 +5,7 @@ from __future__ import annotations
 import os
 import uuid
 from collections.abc import Iterator
+from contextlib import contextmanager
 from pathlib import Path
 
 import pytest
@@ -26,9 +27,9 @@ def _need_pg() -> str:
     pytest.skip("no PostgreSQL (run the suite through scripts/test)")
 
 
-@pytest.fixture
-def pg_url() -> Iterator[str]:
-    """A fresh, empty PostgreSQL database for one test; dropped afterwards."""
+@contextmanager
+def fresh_pg_database() -> Iterator[str]:
+    """Create an empty PostgreSQL database on the server scripts/test started; drop it after."""
     from sqlalchemy import create_engine, text
 
     admin_url = _need_pg()
@@ -36,13 +37,19 @@ def pg_url() -> Iterator[str]:
     admin = create_engine(admin_url, isolation_level="AUTOCOMMIT")
     with admin.connect() as conn:
         conn.execute(text(f'CREATE DATABASE "{name}"'))
-    base = admin_url.rsplit("/", 1)[0]
     try:
-        yield f"{base}/{name}"
+        yield f"{admin_url.rsplit('/', 1)[0]}/{name}"
     finally:
         with admin.connect() as conn:
             conn.execute(text(f'DROP DATABASE IF EXISTS "{name}" WITH (FORCE)'))
         admin.dispose()
+
+
+@pytest.fixture
+def pg_url() -> Iterator[str]:
+    """A fresh, empty PostgreSQL database for one test; dropped afterwards."""
+    with fresh_pg_database() as url:
+        yield url
 
 
 @pytest.fixture(params=["sqlite", "postgres"])

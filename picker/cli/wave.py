@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from typing import Any
 
 import click
@@ -26,6 +27,20 @@ def _need_known(known: bool, label: str, what: str) -> None:
     if not known:
         raise BadValue("PART", label, f"has no {what} recorded, so its output cannot be "
                        f"predicted; add it with `picker parts edit {label} ...`")
+
+
+def _emit(summary: dict[str, Any], text: Callable[[], str], png: str | None, as_json: bool,
+          cautions: list[str]) -> None:
+    """One result as JSON or text (with the plot's path), then the cautions."""
+    from picker.report.tables import to_json
+
+    if as_json:
+        click.echo(to_json(summary))
+    else:
+        click.echo(text())
+        if png:
+            click.echo(f"plot: {png}")
+    _cautions(cautions, as_json)
 
 
 def _cautions(cautions: list[str], as_json: bool) -> None:
@@ -74,7 +89,6 @@ def wave(part: str | None, stage: dict[str, Any], top: int | None, png: str | No
         return
     assert part is not None
     from picker.design.waveform import COLUMNS, waveforms
-    from picker.report.tables import to_json
     from picker.report.waves import wave_text
 
     waves = waveforms(req, _part_frame(db, part, COLUMNS))
@@ -83,13 +97,7 @@ def wave(part: str | None, stage: dict[str, Any], top: int | None, png: str | No
         from picker.report.plots import save_png, wave_figure
 
         save_png(wave_figure(waves, 0, pixels), png)
-    if as_json:
-        click.echo(to_json(waves.summary(0)))
-    else:
-        click.echo(wave_text(waves, 0, req))
-        if png:
-            click.echo(f"plot: {png}")
-    _cautions(req.cautions, as_json)
+    _emit(waves.summary(0), lambda: wave_text(waves, 0, req), png, as_json, req.cautions)
 
 
 def _top(req: Any, n: int, png: str | None, pixels: tuple[int, int], as_json: bool,
@@ -139,7 +147,6 @@ def bode(part: str, stage: dict[str, Any], png: str | None, size: str | None, as
     """
     from picker.design.response import COLUMNS, response
     from picker.report.plots import BODE_SIZE
-    from picker.report.tables import to_json
     from picker.report.waves import bode_text
 
     req = build_requirement(stage)
@@ -150,10 +157,4 @@ def bode(part: str, stage: dict[str, Any], png: str | None, size: str | None, as
         from picker.report.plots import bode_figure, save_png
 
         save_png(bode_figure(resp, 0, pixels), png)
-    if as_json:
-        click.echo(to_json(resp.summary(0)))
-    else:
-        click.echo(bode_text(resp, 0, req))
-        if png:
-            click.echo(f"plot: {png}")
-    _cautions(req.cautions, as_json)
+    _emit(resp.summary(0), lambda: bode_text(resp, 0, req), png, as_json, req.cautions)

@@ -55,6 +55,13 @@ def _targets() -> list[tuple[list[str], str, list[str]]]:
     return out
 
 
+def _required_args(cmd: click.Command, folder: Path) -> list[str]:
+    """Plausible values for a command's required arguments (files inside ``folder``)."""
+    args = [_good_argument(p.name or "") for p in cmd.params
+            if isinstance(p, click.Argument) and p.required]
+    return [str(folder / a) if a.endswith(".csv") else a for a in args]
+
+
 def _good_argument(name: str) -> str:
     return {"qty": "1", "values": "qty=1"}.get(name, "bip-gp-a" if name in ("part", "label") else "x.csv")
 
@@ -104,9 +111,7 @@ def test_secret_never_printed_by_any_command(tmp_path: Path) -> None:
     for words, cmd in _commands():
         if not any(p.name == "db" for p in cmd.params):
             continue
-        args = [_good_argument(p.name or "") for p in cmd.params
-                if isinstance(p, click.Argument) and p.required]
-        args = [str(tmp_path / a) if a.endswith(".csv") else a for a in args]
+        args = _required_args(cmd, tmp_path)
         result = runner.invoke(cli, [*words, *args, "--db", url], input="y\n")
         text = result.output + (result.stderr or "")
         assert secret not in text, words
@@ -122,9 +127,7 @@ def test_a_file_that_is_not_a_database_is_one_line_for_every_command(tmp_path: P
     for words, cmd in _commands():
         if not any(p.name == "db" for p in cmd.params):
             continue
-        args = [_good_argument(p.name or "") for p in cmd.params
-                if isinstance(p, click.Argument) and p.required]
-        args = [str(tmp_path / a) if a.endswith(".csv") else a for a in args]
+        args = _required_args(cmd, tmp_path)
         stage = (["--topology", "follower", "--vin", "1", "--freq", "1kHz", "--rails", "±5"]
                  if any(p.name == "stage" or p.name == "topology" for p in cmd.params) else [])
         result = runner.invoke(cli, [*words, *args, *stage, "--db", str(junk)], input="y\n")

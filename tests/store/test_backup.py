@@ -10,7 +10,6 @@ from __future__ import annotations
 import json
 import multiprocessing as mp
 import time
-import uuid
 from collections.abc import Iterator
 from datetime import UTC, datetime
 from pathlib import Path
@@ -67,21 +66,10 @@ def _instant(v: Any) -> Any:
 @pytest.fixture
 def second_pg() -> Iterator[str]:
     """Another empty PostgreSQL database (the pg_url fixture gives one per test)."""
-    from sqlalchemy import create_engine, text
+    from tests.conftest import fresh_pg_database
 
-    from tests.conftest import _need_pg
-
-    admin_url = _need_pg()
-    name = f"picker_t_{uuid.uuid4().hex[:12]}"
-    admin = create_engine(admin_url, isolation_level="AUTOCOMMIT")
-    with admin.connect() as conn:
-        conn.execute(text(f'CREATE DATABASE "{name}"'))
-    try:
-        yield f"{admin_url.rsplit('/', 1)[0]}/{name}"
-    finally:
-        with admin.connect() as conn:
-            conn.execute(text(f'DROP DATABASE IF EXISTS "{name}" WITH (FORCE)'))
-        admin.dispose()
+    with fresh_pg_database() as url:
+        yield url
 
 
 # -- SQLite: online backup while someone writes -------------------------------------------
