@@ -29,11 +29,11 @@ def spec(stage: dict[str, Any], explain: bool, as_json: bool) -> None:
 
         picker spec --topology inverting --gain 10 --vin 0.5Vpk --freq 20kHz --rails ±12
     """
-    from picker.design.spec import minimum_specs
+    from picker import api
     from picker.report.checks import spec_text
     from picker.report.tables import to_json
 
-    s = minimum_specs(build_requirement(stage))
+    s = api.spec(build_requirement(stage))
     if as_json:
         click.echo(to_json(s.to_json()))
         _cautions_to_stderr(s.cautions)
@@ -67,9 +67,7 @@ def pick(stage: dict[str, Any], by: str, top: int | None, strict: bool, listed: 
 
         picker pick --topology non-inverting --gain 20 --vin 0.25V --freq 20kHz --rails ±12
     """
-    from picker.design.checks import Parts, needed_columns
-    from picker.design.rank import select
-    from picker.design.spec import minimum_specs
+    from picker import api
     from picker.report.checks import pick_text
     from picker.report.tables import to_json_rows
 
@@ -78,9 +76,7 @@ def pick(stage: dict[str, Any], by: str, top: int | None, strict: bool, listed: 
     cap = _listed(listed) if listed is not None else (None if as_json else max(20, top or 0))
     req = build_requirement(stage)
     store = open_store(db)
-    # only the columns this stage's checks and the listing read, straight into arrays
-    parts = Parts.from_columns(*store.parts_columns(needed_columns(minimum_specs(req))))
-    sel = select(parts, req, by=by, top=top, strict=strict)  # type: ignore[arg-type]
+    sel = api.pick(req, store, by=by, top=top, strict=strict)  # type: ignore[arg-type]
     if as_json:
         import sys
 
@@ -116,24 +112,14 @@ def _listed(text: str) -> int | None:
 @db_option
 def why(part: str, stage: dict[str, Any], as_json: bool, db: str | None) -> None:
     """The full check sheet of one PART for a stage: each check with formula and numbers."""
-    from picker.design.checks import Parts
-    from picker.design.rank import check_part
+    from picker import api
     from picker.report.checks import why_text
-    from picker.store import Condition
 
-    req = build_requirement(stage)
-    store = open_store(db)
-    store.get(part)  # NotFound, with a hint, when the label is not in the stockroom
-    parts = Parts(store.parts_frame(conditions=[Condition("label", "=", part)]))
-    spec_, table = check_part(parts, req)
+    report = api.why(build_requirement(stage), part, open_store(db))
     if as_json:
         from picker.report.tables import to_json
 
-        checks = table.records(0)
-        statuses = {c["status"] for c in checks.values()}
-        verdict = "fail" if "fail" in statuses else "unknown" if "unknown" in statuses else "pass"
-        click.echo(to_json({"part": part, "spec": spec_.to_json(), "verdict": verdict,
-                            "checks": checks}))
-        _cautions_to_stderr(spec_.cautions)
+        click.echo(to_json(report.to_json()))
+        _cautions_to_stderr(report.spec.cautions)
         return
-    click.echo(why_text(spec_, table, parts))
+    click.echo(why_text(report.spec, report.table, report.parts))

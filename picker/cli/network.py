@@ -7,7 +7,7 @@ from typing import Any
 import click
 
 from picker.cli.params import QuantityParam, db_option, open_store
-from picker.cli.reqopts import build_requirement, pinned_rf, requirement_options
+from picker.cli.reqopts import build_requirement, requirement_options
 
 
 class SeriesParam(click.ParamType):
@@ -51,14 +51,15 @@ def net(stage: dict[str, Any], series: str, tolerance: float, zin: float | None,
     \b
         picker net --topology inverting --gain 4.7 --vin 1V --freq 20kHz --rails ±12
     """
-    from picker.design.network import design_network, exact_gain
+    from picker import api
+    from picker.design.network import exact_gain
     from picker.report.network import render
     from picker.report.tables import to_json
 
-    req = build_requirement(stage, with_network=False)
+    req = build_requirement(stage)
     row = open_store(db).get(part) if part else None
-    network = design_network(req, row, series=series, tolerance=tolerance,  # type: ignore[arg-type]
-                             zin_ohm=zin, feedback_ohm=pinned_rf(stage, req))
+    network = api.design_network(req, row, series=series, tolerance=tolerance,  # type: ignore[arg-type]
+                                 zin_ohm=zin)
     if as_json:
         click.echo(to_json(network.as_json()))
         for c in req.cautions:

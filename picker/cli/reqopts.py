@@ -70,34 +70,15 @@ def requirement_options(f: F) -> F:
     return cmd  # type: ignore[no-any-return]
 
 
-def build_requirement(stage: dict[str, Any], *, with_network: bool = True) -> Any:
+def build_requirement(stage: dict[str, Any]) -> Any:
     """The Requirement named by the options (and the design file); PickerError if bad.
 
-    Unless the stage names its own network, it gets the E-series network of
-    picker.design.network (--rf pins its feedback resistor); ``with_network=False``
-    gives the bare requirement (``picker net`` designs the network itself).
+    The stage as asked: picker.api designs its network (the library's default).
     """
     from picker.design.requirement import requirement_from
 
     options = {k.replace("_", "-"): v for k, v in stage.items() if k != "design"}
-    req = requirement_from(options, stage.get("design"))
-    if not with_network:
-        return req
-    from picker.design.network import with_designed_network
-
-    return with_designed_network(req, feedback_ohm=pinned_rf(stage, req))
-
-
-def pinned_rf(stage: dict[str, Any], req: Any) -> float | None:
-    """The feedback resistor the user pinned (--rf, or rf in the design file), if any."""
-    if stage.get("rf") is not None:
-        return float(stage["rf"])
-    if stage.get("design"):
-        from picker.design.requirement import read_design
-
-        if "rf" in read_design(stage["design"]):
-            return float(req.rf_ohm)
-    return None
+    return requirement_from(options, stage.get("design"))
 
 
 __all__ = ["KEYS", "build_requirement", "requirement_options"]

@@ -78,20 +78,22 @@ def wave(part: str | None, stage: dict[str, Any], top: int | None, png: str | No
 
         picker wave --top 4 --topology inverting --gain 10 --vout 10V --freq 20kHz --rails ±15 --png top.png
     """
+    from picker import api
     from picker.report.plots import GRID_SIZE, WAVE_SIZE
 
     if (part is None) == (top is None):
         raise click.UsageError("give either a PART or --top N (the best N candidates)")
-    req = build_requirement(stage)
+
+    req = api.built(build_requirement(stage))  # built once: every step below reuses it
     pixels = _size(size, WAVE_SIZE if top is None else GRID_SIZE)
     if top is not None:
         _top(req, top, png, pixels, as_json, db)
         return
     assert part is not None
-    from picker.design.waveform import COLUMNS, waveforms
+    from picker.design.waveform import COLUMNS
     from picker.report.waves import wave_text
 
-    waves = waveforms(req, _part_frame(db, part, COLUMNS))
+    waves = api.waveform(req, _part_frame(db, part, COLUMNS))
     _need_known(bool(waves.known[0]), part, "gain-bandwidth product or slew rate")
     if png:
         from picker.report.plots import save_png, wave_figure
@@ -102,7 +104,7 @@ def wave(part: str | None, stage: dict[str, Any], top: int | None, png: str | No
 
 def _top(req: Any, n: int, png: str | None, pixels: tuple[int, int], as_json: bool,
          db: str | None) -> None:
-    from picker.design.waveform import candidate_waveforms
+    from picker import api
     from picker.errors import NotFound
     from picker.report.tables import to_json
     from picker.report.waves import candidates_json, candidates_text
@@ -111,7 +113,7 @@ def _top(req: Any, n: int, png: str | None, pixels: tuple[int, int], as_json: bo
     if frame.empty:
         raise NotFound("the stockroom has no parts; add some with `picker parts add` or "
                        "`picker init --demo`")
-    cands = candidate_waveforms(req, frame, n)
+    cands = api.candidates(req, frame, n)
     if png:
         from picker.report.plots import grid_figure, save_png
 
@@ -145,13 +147,14 @@ def bode(part: str, stage: dict[str, Any], png: str | None, size: str | None, as
 
         picker bode bip-gp-a --topology non-inverting --gain 20 --vin 0.25V --freq 20kHz --rails ±12 --png bode.png
     """
-    from picker.design.response import COLUMNS, response
+    from picker import api
+    from picker.design.response import COLUMNS
     from picker.report.plots import BODE_SIZE
     from picker.report.waves import bode_text
 
-    req = build_requirement(stage)
+    req = api.built(build_requirement(stage))
     pixels = _size(size, BODE_SIZE)
-    resp = response(req, _part_frame(db, part, COLUMNS))
+    resp = api.response(req, _part_frame(db, part, COLUMNS))
     _need_known(bool(resp.known[0]), part, "gain-bandwidth product")
     if png:
         from picker.report.plots import bode_figure, save_png

@@ -17,7 +17,7 @@ from typing import Literal
 
 import numpy as np
 
-from picker.design.checks import CheckName, Parts, run_checks
+from picker.checks import Parts, run_checks
 from picker.design.requirement import Requirement
 from picker.design.spec import minimum_specs
 from picker.errors import PickerError
@@ -46,7 +46,7 @@ class Move:
 @dataclass(frozen=True)
 class NearMiss:
     part: str
-    fails: list[CheckName]
+    fails: list[str]
     moves: list[Move]
 
 

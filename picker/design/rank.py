@@ -26,7 +26,7 @@ from typing import Any, Literal
 
 import numpy as np
 
-from picker.design.checks import CheckName, CheckTable, Parts, run_checks
+from picker.checks import CheckTable, Parts, run_checks
 from picker.design.ordering import Entries, Rows, label_rank, order_rows
 from picker.design.requirement import Requirement
 from picker.design.spec import Spec, minimum_specs
@@ -41,8 +41,8 @@ class Entry:
 
     part: str
     row: int  # row in the check table
-    fails: list[CheckName]
-    unknown: list[CheckName]
+    fails: list[str]
+    unknown: list[str]
     margin: float  # smallest margin over the ranked checks
 
 
@@ -175,10 +175,4 @@ def _rank_keys(by: By, parts: Parts, margin: np.ndarray) -> list[np.ndarray]:
     return [-margin]
 
 
-def check_part(parts_df: Any, req: Requirement) -> tuple[Spec, CheckTable]:
-    """The spec and the checks of the parts in ``parts_df`` (e.g. one row, for ``why``)."""
-    spec = minimum_specs(req)
-    return spec, run_checks(parts_df, spec)
-
-
-__all__ = ["BY", "By", "Entry", "Selection", "check_part", "closeness", "select"]
+__all__ = ["BY", "By", "Entry", "Selection", "closeness", "select"]

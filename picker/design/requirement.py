@@ -108,6 +108,7 @@ class Requirement:
     qty: int = 1
     margin: float = 1.25
     rf_ohm: float = 10e3
+    rf_pinned: bool = False  # rf was given: the designed network keeps it
     network: Mapping[str, float] | None = field(default=None, hash=False)
     mains: bool = False
 
@@ -382,6 +383,7 @@ def _build(values: Mapping[str, tuple[Any, str]]) -> Requirement:
             kw["margin"] = raw if isinstance(raw, float) else as_number(str(raw), name)
         elif key == "rf":
             kw["rf_ohm"] = parse(raw, "resistance", name, allow_zero=False)
+            kw["rf_pinned"] = True
         elif key == "mains":
             kw["mains"] = _bool(raw, name)
         elif key == "network":

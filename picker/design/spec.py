@@ -30,7 +30,7 @@ DC loss 1/(1 + L); loss at f: 1 - L/√((1 + L)² + x²), x = f·A0/GBW.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import asdict, dataclass, field
 from functools import cached_property
 from typing import Any
 
@@ -41,15 +41,11 @@ from picker.quantities import Kind, fmt
 DC_SHARE = 0.2  # of the op-amp's gain-error allowance, spent at DC
 RIN_SHARE = 0.2  # of the DC share, left to the input resistance (when it matters)
 
-MIN_KEYS: tuple[str, ...] = (
-    "slew_rate", "gbw", "open_loop_gain", "swing_pos", "swing_neg",
-    "output_current", "input_resistance", "supply_span",
-)
-
 
 @dataclass(frozen=True)
 class Explained:
-    """One line of ``picker spec --explain``: a value, its formula and its numbers."""
+    """One line of ``picker spec --explain`` and ``picker why``: a value, its formula
+    and the numbers that give it (``expression = value``)."""
 
     name: str
     title: str
@@ -74,23 +70,50 @@ class Budget:
 
 
 @dataclass(frozen=True)
+class Minimums:
+    """The least a part must have for the stage (SI units; None = no part can do it or
+    it does not matter here). The checks compare each part with these."""
+
+    slew_v_per_s: float
+    gbw_hz: float | None
+    aol_v_per_v: float | None
+    rin_ohm: float | None
+    swing_pos_v: float  # the output must reach this level toward V+
+    swing_neg_v: float  # ... and this one toward V-
+    cm_low_v: float  # the inputs reach down to this level
+    cm_high_v: float  # ... and up to this one
+    iout_a: float
+    supply_span_v: float
+
+
+@dataclass(frozen=True)
 class Spec:
-    """The minimum specifications of one stage (SI units; None = does not apply)."""
+    """The minimum specifications of one stage (SI units)."""
 
     requirement: Requirement
     stage: Stage
     signal_gain: float
     noise_gain: float
     margin: float
-    minimum: dict[str, float | None]
-    common_mode: tuple[float, float]  # lowest and highest level the inputs reach
+    minimum: Minimums
     budget: Budget
     notes: list[str] = field(default_factory=list)
 
+    @property
+    def common_mode(self) -> tuple[float, float]:
+        """Lowest and highest level the op-amp's inputs reach, V."""
+        return self.minimum.cm_low_v, self.minimum.cm_high_v
+
     @cached_property
     def explain(self) -> list[Explained]:
-        """Each minimum with its formula and numbers (``picker spec --explain``)."""
-        return _explain(self)
+        """Each minimum with its formula and numbers (``picker spec --explain``): the
+        stage's gains and budget, then what each applicable check asks."""
+        from picker.checks import applicable
+
+        rows = stage_rows(self)
+        for check in applicable(self):
+            rows += check.explain(self)
+        return rows
 
     @property
     def cautions(self) -> list[str]:
@@ -102,7 +125,8 @@ class Spec:
             "signal_gain": self.signal_gain,
             "noise_gain": self.noise_gain,
             "margin": self.margin,
-            "min": {k: self.minimum.get(k) for k in MIN_KEYS},
+            "min": asdict(self.minimum),
+            "budget": asdict(self.budget),
         }
 
 
@@ -154,119 +178,65 @@ def _split(req: Requirement, st: Stage) -> tuple[Budget, float | None, float | N
 
 
 def minimum_specs(req: Requirement) -> Spec:
-    """Turn a requirement into minimum specifications (see the module docstring)."""
+    """Turn a requirement into minimum specifications (see the module docstring).
+
+    Parameters
+    ----------
+    req : Requirement
+        The stage, with its network (an explicit one, or the ideal ratio from ``rf``;
+        picker.api designs the E-series network first).
+
+    Returns
+    -------
+    Spec
+        Gains, the budget split and the ``Minimums`` (SI units).
+    """
     st = stage(req)
     m, f, vp, ref = req.margin, req.freq_hz, req.vout, req.ref
-    ng = st.noise_gain
     budget, a0, rin, gbw = _split(req, st)
-    slew = 2 * math.pi * f * vp * m
-    swing_pos, swing_neg = ref + vp, ref - vp  # not scaled by m (module docstring)
     vcm = st.cm_per_volt * req.vin
-    cm = (ref - vcm, ref + vcm)
-    amps = m * vp * st.amps_per_volt_out
-    minimum: dict[str, float | None] = {
-        "slew_rate": slew, "gbw": gbw, "open_loop_gain": a0,
-        "swing_pos": swing_pos, "swing_neg": swing_neg, "output_current": amps,
-        "input_resistance": rin, "supply_span": req.span,
-    }
+    minimum = Minimums(
+        slew_v_per_s=2 * math.pi * f * vp * m, gbw_hz=gbw, aol_v_per_v=a0, rin_ohm=rin,
+        swing_pos_v=ref + vp, swing_neg_v=ref - vp,  # not scaled by m (module docstring)
+        cm_low_v=ref - vcm, cm_high_v=ref + vcm,
+        iout_a=m * vp * st.amps_per_volt_out, supply_span_v=req.span)
     notes = [f"design margin {m:g}: amounts x{m:g}, allowed errors /{m:g} "
              "(swing and common-mode range are checked at the stated amplitude)",
              "minimum A0, Rin and GBW assume Ro = 0; each part's check uses its own Ro"]
-    if swing_pos > req.rail_pos or swing_neg < req.rail_neg:
-        notes.append(f"the output would have to reach {swing_neg:.4g} V .. {swing_pos:.4g} V, "
-                     "beyond the rails: no part can pass swing; lower the amplitude, move "
-                     "--ref or widen the rails")
+    if minimum.swing_pos_v > req.rail_pos or minimum.swing_neg_v < req.rail_neg:
+        notes.append(f"the output would have to reach {minimum.swing_neg_v:.4g} V .. "
+                     f"{minimum.swing_pos_v:.4g} V, beyond the rails: no part can pass swing; "
+                     "lower the amplitude, move --ref or widen the rails")
     if budget.opamp <= 0:
         notes.append(f"the network alone misses the gain budget ({budget.network:+.3%} vs "
                      f"{budget.allowed:.3%}); no op-amp can meet it")
     if not st.ideal_network:
         notes.append("network: " + ", ".join(f"{k} {fmt(v, 'resistance')}"
                                               for k, v in st.resistors.items()))
-    return Spec(req, st, st.gain, ng, m, minimum, cm, budget, notes)
+    return Spec(req, st, st.gain, st.noise_gain, m, minimum, budget, notes)
 
 
-def _v(x: float | None, kind: Kind) -> str:
-    return fmt(x, kind)
-
-
-def _explain(s: Spec) -> list[Explained]:
-    req, st, b, mn = s.requirement, s.stage, s.budget, s.minimum
-    m, f, vp, ref = req.margin, req.freq_hz, req.vout, req.ref
-    ng = s.noise_gain
-    rows = [
+def stage_rows(s: Spec) -> list[Explained]:
+    """The stage's own lines of ``--explain``: signal gain, noise gain, the budget split."""
+    req, st, b = s.requirement, s.stage, s.budget
+    m, f = req.margin, req.freq_hz
+    rin_share = "n/a" if b.input_resistance is None else f"{b.input_resistance:.3%}"
+    return [
         Explained("signal_gain", "signal gain", s.signal_gain, "gain", "G = |vout/vin|",
                   f"{s.signal_gain:.6g} V/V ({req.topology})"),
-        Explained("noise_gain", "noise gain", ng, "gain", "NG = 1 + rf/rg (rg with the source)",
-                  f"1 + {_v(st.rf, 'resistance')}/{_v(st.rg, 'resistance')} = {ng:.6g} V/V"),
+        Explained("noise_gain", "noise gain", s.noise_gain, "gain",
+                  "NG = 1 + rf/rg (rg with the source)",
+                  f"1 + {fmt(st.rf, 'resistance')}/{fmt(st.rg, 'resistance')} = "
+                  f"{s.noise_gain:.6g} V/V"),
         Explained(
-            "gain_error", "gain-error budget", b.allowed, "ratio",
-            "e = gain error/m; network first, op-amp ℓ = 1-(1-e)/(|Gnet|/G): DC ℓ/5 "
-            "(A0 16%, Rin 4% of ℓ), top frequency the rest (A0, Rin at their minimums)",
-            f"{_v(b.total, 'ratio')}/{m:g} = {_v(b.allowed, 'ratio')}: network "
-            f"{b.network:+.3%}, A0 {b.open_loop:.3%}, Rin "
-            + ("n/a" if b.input_resistance is None else f"{b.input_resistance:.3%}")
-            + f", bandwidth {b.bandwidth:.3%} more at {_v(f, 'frequency')}"),
-        Explained("slew_rate", "minimum slew rate", mn["slew_rate"], "slew",
-                  "SR >= 2π·f·Vp,out·m",
-                  f"2π × {_v(f, 'frequency')} × {vp:.4g} V × {m:g} = {_v(mn['slew_rate'], 'slew')}"),
+            "gain_budget", "gain-error budget split", b.allowed, "ratio",
+            "network first, op-amp ℓ = 1-(1-e)/(|Gnet|/G): DC ℓ/5 (A0 16%, Rin 4% of ℓ), "
+            "top frequency the rest (A0, Rin at their minimums)",
+            f"e = {fmt(b.allowed, 'ratio')}: network {b.network:+.3%}, A0 {b.open_loop:.3%}, "
+            f"Rin {rin_share}, bandwidth {b.bandwidth:.3%} more at {fmt(f, 'frequency')} "
+            f"(margin {m:g})"),
     ]
-    a0, rin, gbw = mn["open_loop_gain"], mn["input_resistance"], mn["gbw"]
-    rows.append(Explained(
-        "open_loop_gain", "minimum open-loop gain", a0, "gain",
-        "A0 >= NG·(1 - eA)/eA  (DC loss 1/(1 + A0/NG) = eA)",
-        "-" if a0 is None else
-        f"{ng:.5g} × (1 - {b.open_loop:.4g})/{b.open_loop:.4g} = {a0:.4g} V/V ({_v(a0, 'gain')})"))
-    rows.append(Explained(
-        "input_resistance", "minimum input resistance", rin, "resistance",
-        "Rin = (rg·zp + rf·rg + rf·zp)/(rg·(N - NG)), N = A0,min·e_dc/(1 - e_dc)",
-        "does not matter here (no resistance at the inputs)" if rin is None else
-        f"rf {_v(st.rf, 'resistance')}, rg {_v(st.rg, 'resistance')}, zp "
-        f"{_v(st.zp, 'resistance')}, e_dc {b.dc:.4g} -> {_v(rin, 'resistance')}"))
-    if gbw is not None and a0 is not None:
-        lg = (1 - b.dc) / b.dc
-        gbw_numbers = (f"L = {lg:.5g}, ℓ = {b.opamp:.4g}: {_v(f, 'frequency')} × {a0:.4g} / "
-                       f"√({lg:.5g}²/(1-{b.opamp:.4g})² - {1 + lg:.5g}²) = {_v(gbw, 'frequency')}")
-    else:
-        gbw_numbers = "-"
-    rows.append(Explained(
-        "gbw", "minimum gain-bandwidth product", gbw, "frequency",
-        "GBW >= f·A0,min/√(L²/(1-ℓ)² - (1+L)²), L = (1 - e_dc)/e_dc", gbw_numbers))
-    rows += [
-        Explained("swing_pos", "output must reach (toward V+)", mn["swing_pos"], "voltage",
-                  "ref + Vp,out",
-                  f"{ref:.4g} V + {vp:.4g} V = {mn['swing_pos']:.4g} V "
-                  f"(within {req.rail_pos - mn['swing_pos']:.3g} V of V+)"),  # type: ignore[operator]
-        Explained("swing_neg", "output must reach (toward V-)", mn["swing_neg"], "voltage",
-                  "ref - Vp,out",
-                  f"{ref:.4g} V - {vp:.4g} V = {mn['swing_neg']:.4g} V "
-                  f"(within {mn['swing_neg'] - req.rail_neg:.3g} V of V-)"),  # type: ignore[operator]
-        Explained("common_mode", "input common-mode range", s.common_mode[1] - s.common_mode[0],
-                  "voltage", "ref ± |kp|·Vp,in (the inputs follow the non-inverting input)",
-                  f"{s.common_mode[0]:.4g} V .. {s.common_mode[1]:.4g} V"
-                  + (" (inputs sit at the reference)" if st.cm_per_volt == 0 else "")),
-        Explained("output_current", "minimum output current", mn["output_current"], "current",
-                  "m·Vp,out·(1/RL + (1 - vn/vo)/rf)",
-                  f"{m:g} × {vp:.4g} V × {st.amps_per_volt_out:.4g} S = "
-                  f"{_v(mn['output_current'], 'current')}"),
-        Explained("supply_span", "supply span to be rated for", req.span, "voltage",
-                  "V+ - V-", f"{req.rail_pos:g} V - ({req.rail_neg:g} V) = {req.span:g} V"),
-    ]
-    if req.offset_max_v is not None:
-        lim = req.offset_max_v / m
-        rows.append(Explained(
-            "offset", "allowed output offset", lim, "voltage",
-            "NG·(Vos + drift·ΔT) + |Ib·(rf - zp·NG)| + Ios/2·(rf + zp·NG) <= Vmax/m",
-            f"{_v(req.offset_max_v, 'voltage')}/{m:g} = {_v(lim, 'voltage')}; Vos alone "
-            f"<= {_v(lim / ng, 'voltage')}; ΔT = {req.drift_span_c:g} °C"))
-    if req.noise_max_v is not None:
-        lim = req.noise_max_v / m
-        rows.append(Explained(
-            "noise", "allowed output noise (RMS)", lim, "voltage",
-            "√(Σ density²·π/2·f_cl) <= Vn,max/m, f_cl = closed-loop pole",
-            f"{_v(req.noise_max_v, 'voltage')}/{m:g} = {_v(lim, 'voltage')} at "
-            f"{req.temp_max_c:g} °C"))
-    return rows
 
 
-__all__ = ["MIN_KEYS", "Budget", "Explained", "Spec", "minimum_specs", "ng_eff", "rin_for",
-           "rin_matters"]
+__all__ = ["Budget", "Explained", "Minimums", "Spec", "minimum_specs", "ng_eff", "rin_for",
+           "rin_matters", "stage_rows"]

@@ -7,9 +7,13 @@ Selection); strings are built only for the rows shown.
 from __future__ import annotations
 
 import math
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from picker.quantities import Kind, fmt
+
+if TYPE_CHECKING:
+    from picker.checks import CheckResult, CheckTable, Parts
+    from picker.design.spec import Spec
 
 RULE = "-"
 
@@ -48,20 +52,17 @@ def cautions_block(cautions: list[str]) -> list[str]:
 
 # -- picker spec ----------------------------------------------------------------------
 
-_SPEC_ROWS: tuple[tuple[str, str], ...] = (
-    ("slew_rate", "slew rate"), ("gbw", "gain-bandwidth product"),
-    ("open_loop_gain", "open-loop gain"), ("input_resistance", "input resistance"),
-    ("swing_pos", "output reaches (toward V+)"), ("swing_neg", "output reaches (toward V-)"),
-    ("output_current", "output current"), ("supply_span", "supply span rated for"),
+# the minimums of `picker spec` (short form), as (Minimums field, title, kind)
+_SPEC_ROWS: tuple[tuple[str, str, Kind], ...] = (
+    ("slew_v_per_s", "slew rate", "slew"), ("gbw_hz", "gain-bandwidth product", "frequency"),
+    ("aol_v_per_v", "open-loop gain", "gain"), ("rin_ohm", "input resistance", "resistance"),
+    ("swing_pos_v", "output reaches (toward V+)", "voltage"),
+    ("swing_neg_v", "output reaches (toward V-)", "voltage"),
+    ("iout_a", "output current", "current"), ("supply_span_v", "supply span rated for", "voltage"),
 )
-_KIND: dict[str, Kind] = {
-    "slew_rate": "slew", "gbw": "frequency", "open_loop_gain": "gain",
-    "input_resistance": "resistance", "swing_pos": "voltage", "swing_neg": "voltage",
-    "output_current": "current", "supply_span": "voltage",
-}
 
 
-def _value(name: str, value: float | None, kind: Kind) -> str:
+def _value(value: float | None, kind: Kind) -> str:
     if value is None:
         return "n/a"
     if kind == "gain":
@@ -69,7 +70,7 @@ def _value(name: str, value: float | None, kind: Kind) -> str:
     return fmt(value, kind)
 
 
-def spec_text(spec: Any, explain: bool = False) -> str:
+def spec_text(spec: Spec, explain: bool = False) -> str:
     """``picker spec``: the minimums, the budget split, notes and cautions."""
     from tabulate import tabulate
 
@@ -79,14 +80,14 @@ def spec_text(spec: Any, explain: bool = False) -> str:
                  f"{_g(spec.noise_gain, 6)} V/V")
     if explain:
         for e in spec.explain:
-            lines += ["", f"{e.title}: {_value(e.name, e.value, e.kind)}",
+            lines += ["", f"{e.title} [{e.name}]: {_value(e.value, e.kind)}",
                       f"    formula: {e.formula}", f"    numbers: {e.numbers}"]
     else:
-        rows = [[title, _value(k, spec.minimum[k], _KIND[k])] for k, title in _SPEC_ROWS]
-        lo, hi = spec.common_mode
-        rows.append(["input common-mode range", f"{_g(lo)} V .. {_g(hi)} V"])
+        mn = spec.minimum
+        rows = [[title, _value(getattr(mn, k), kind)] for k, title, kind in _SPEC_ROWS]
+        rows.append(["input common-mode range", f"{_g(mn.cm_low_v)} V .. {_g(mn.cm_high_v)} V"])
         lines.append(tabulate(rows, headers=["minimum", "value"], disable_numparse=True))
-        budget = next(e for e in spec.explain if e.name == "gain_error")
+        budget = next(e for e in spec.explain if e.name == "gain_budget")
         lines += ["", f"gain-error budget: {budget.numbers}"]
     lines += ["", *[f"note: {n}" for n in spec.notes]]
     return "\n".join(lines)
@@ -94,19 +95,18 @@ def spec_text(spec: Any, explain: bool = False) -> str:
 
 # -- one check as a line -------------------------------------------------------------------
 
-def limit_line(result: Any, i: int, parts: Any | None = None) -> str:
+def limit_line(result: CheckResult, i: int, parts: Parts | None = None,
+               needed: tuple[str, ...] = ()) -> str:
     """``slew: needs >= 1.9 V/µs, has 0.5 V/µs (26%)`` for part i."""
     name, kind = result.name, result.kind
-    status = str(result.status[i])
+    status = result.status(i)
     need = float(result.need[i])
     has = float(result.has[i])
-    sense = str(result.sense[i])
-    note = "" if result.note is None else str(result.note[i])
+    sense = result.sense[i]
+    note = result.note[i]
     where = f" [{note}]" if note else ""
     if status == "unknown":
-        missing = []
-        if parts is not None:
-            missing = [f for f in result.fields if f in parts and math.isnan(parts[f][i])]
+        missing = [f for f in needed if parts is not None and math.isnan(parts[f][i])]
         what = ", ".join(missing) if missing else "a parameter"
         return f"{name}: unknown, needs {sense} {fmt(need, kind)}; missing {what}"
     pct = percent(float(result.margin[i]), status == "fail")
@@ -114,18 +114,13 @@ def limit_line(result: Any, i: int, parts: Any | None = None) -> str:
     return f"{name}: needs {sense} {fmt(need, kind)}, has {fmt(has, kind)}{pct}{where}"
 
 
+def _needed(spec: Spec) -> dict[str, tuple[str, ...]]:
+    from picker.checks import applicable
+
+    return {c.name: c.needed(spec) for c in applicable(spec)}
+
+
 # -- picker pick ----------------------------------------------------------------------------
-
-def _limiting(table: Any, i: int) -> str:
-    from picker.design.checks import NOT_RANKED
-
-    best, name = math.inf, "-"
-    for n, r in table.results.items():
-        m = float(r.margin[i])
-        if n not in NOT_RANKED and m < best:
-            best, name = m, n
-    return name
-
 
 def pick_text(sel: Any, max_listed: int | None = None) -> str:
     """``picker pick``: accepted (ranked), unverified, rejected with reasons, nearest misses.
@@ -137,6 +132,7 @@ def pick_text(sel: Any, max_listed: int | None = None) -> str:
     from tabulate import tabulate
 
     t, parts = sel.table, sel.parts
+    needed = _needed(sel.spec)
     lines = [f"Stage: {stage_line(sel.requirement)}", *cautions_block(sel.cautions), ""]
     order = {"margin": "smallest margin, largest first", "price": "price, cheapest first",
              "stock": "channels on hand, most first"}[sel.by]
@@ -146,7 +142,7 @@ def pick_text(sel: Any, max_listed: int | None = None) -> str:
         for k, e in enumerate(listed, 1):
             price = parts["price"][e.row]
             rows.append([k, e.part, f"{e.margin:.3g}" if math.isfinite(e.margin) else "-",
-                         _limiting(t, e.row), "-" if math.isnan(price) else f"{price:.2f}",
+                         t.limiting(e.row), "-" if math.isnan(price) else f"{price:.2f}",
                          _count(parts["qty"][e.row]), _count(parts["channels"][e.row])])
         shown = (f"{len(listed)}" if len(listed) == sel.accepted_total
                  else f"best {len(listed)} of {sel.accepted_total}")
@@ -162,14 +158,14 @@ def pick_text(sel: Any, max_listed: int | None = None) -> str:
                   "could not be made (--strict rejects these):"]
         for e in sel.unverified[:max_listed]:
             lines.append(f"  {e.part}")
-            lines += [f"    {limit_line(t.results[n], e.row, parts)}" for n in e.unknown]
+            lines += [f"    {limit_line(t.results[n], e.row, parts, needed[n])}" for n in e.unknown]
         lines += _more(len(sel.unverified), max_listed, "unverified")
     if sel.rejected:
         closest = "" if max_listed is None or max_listed >= len(sel.rejected) else ", closest first"
         lines += ["", f"Rejected ({len(sel.rejected)}{closest}):"]
         for e in sel.rejected[:max_listed]:
             lines.append(f"  {e.part}")
-            lines += [f"    {limit_line(t.results[n], e.row, parts)}" for n in e.fails]
+            lines += [f"    {limit_line(t.results[n], e.row, parts, needed[n])}" for n in e.fails]
         lines += _more(len(sel.rejected), max_listed, "rejected")
     if sel.nearest:
         lines += ["", "Nearest misses: the requirement would have to move (one change at a "
@@ -205,80 +201,26 @@ def _move(m: Any) -> str:
 
 # -- picker why -----------------------------------------------------------------------------
 
-def why_text(spec: Any, table: Any, parts: Any, i: int = 0) -> str:
+def why_text(spec: Spec, table: CheckTable, parts: Parts, i: int = 0) -> str:
     """``picker why``: every check of one part with its formula and its numbers."""
+    from picker.checks import applicable
+
     label = str(table.labels[i])
     lines = [f"Part: {label}", f"Stage: {stage_line(spec.requirement)}",
              *cautions_block(spec.cautions), ""]
-    for name, r in table.results.items():
-        status = str(r.status[i]).upper()
-        lines.append(f"[{status}] {limit_line(r, i, parts)}")
-        formula, numbers = _sheet(name, spec, r, parts, i)
-        lines.append(f"    formula: {formula}")
-        if numbers:
-            lines.append(f"    numbers: {numbers}")
-    verdict = ("fails " + ", ".join(n for n, r in table.results.items() if r.status[i] == "fail")
-               if any(r.status[i] == "fail" for r in table.results.values()) else
-               "unverified (some checks unknown)"
-               if any(r.status[i] == "unknown" for r in table.results.values()) else "passes")
-    lines += ["", f"Verdict: {label} {verdict}."]
+    for check in applicable(spec):
+        r = table.results[check.name]
+        need = check.explain(spec)[0]
+        lines.append(f"[{r.status(i).upper()}] {limit_line(r, i, parts, check.needed(spec))}")
+        lines.append(f"    formula: {check.formula}")
+        lines.append(f"    need: {need.numbers}")
+        lines.append(f"    part: {check.detail(spec, parts, i)}")
+    verdict = table.verdict(i)
+    words = ("fails " + ", ".join(n for n, r in table.results.items() if r.status(i) == "fail")
+             if verdict == "fail" else "unverified (some checks unknown)"
+             if verdict == "unknown" else "passes")
+    lines += ["", f"Verdict: {label} {words}."]
     return "\n".join(lines)
-
-
-def _v(x: float, kind: Kind) -> str:
-    return fmt(x, kind)
-
-
-def _sheet(name: str, spec: Any, r: Any, p: Any, i: int) -> tuple[str, str]:
-    """Formula and numbers of one check for part i (display only)."""
-    req, st, m = spec.requirement, spec.stage, spec.requirement.margin
-    d = {k: float(v[i]) for k, v in r.detail.items()}
-    if name == "swing":
-        return ("(V+ - headroom+) - ref and ref - (V- + headroom-), each >= m·Vp,out",
-                f"headroom {_v(p['out_head_pos_v'][i], 'voltage')} / "
-                f"{_v(p['out_head_neg_v'][i], 'voltage')}; ref {_g(req.ref)} V; "
-                f"m·Vp,out = {m:g} × {_g(req.vout)} V")
-    if name == "common_mode":
-        return ("inputs reach ref ± m·|kp|·Vp,in inside (V- + head-) .. (V+ - head+)",
-                f"head {_v(p['cm_head_pos_v'][i], 'voltage')} / "
-                f"{_v(p['cm_head_neg_v'][i], 'voltage')}; inputs reach "
-                f"{_g(spec.common_mode[0])} V .. {_g(spec.common_mode[1])} V")
-    if name == "slew":
-        return ("SR >= 2π·f·Vp,out·m",
-                f"2π × {_v(req.freq_hz, 'frequency')} × {_g(req.vout)} V × {m:g}")
-    if name == "gain_accuracy":
-        return ("exact |G| from the nodal solution (A(s) = A0/(1 + s·A0/(2π·GBW)), Rin, Ro, "
-                "source, load, network) at DC and at f; error | |G|/G - 1 | <= gain error/m",
-                f"DC {_g(d['gain_dc'], 7)} V/V ({d['error_dc']:.4%}); at "
-                f"{_v(req.freq_hz, 'frequency')} {_g(d['gain_f'], 7)} V/V ({d['error_f']:.4%}), "
-                f"phase {d['phase_f_deg']:+.3g}°; closed-loop pole "
-                f"{_v(d['f_closed_loop'], 'frequency')}; G {_g(req.gain)} V/V; budget "
-                f"{fmt(req.gain_error, 'ratio')}/{m:g}")
-    if name == "output_current":
-        return ("Iout >= m·Vp,out·(1/RL + (1 - vn/vo)/rf)",
-                f"{m:g} × {_g(req.vout)} V × {st.amps_per_volt_out:.4g} S")
-    if name == "supply":
-        return ("Vs,min <= V+ - V- <= Vs,max",
-                f"{_v(p['supply_min_v'][i], 'voltage')} <= {_g(req.span)} V <= "
-                f"{_v(p['supply_max_v'][i], 'voltage')}")
-    if name == "offset":
-        return ("NG·(|Vos| + |drift|·ΔT) + |Ib|·|rf - zp·NG| + Ios/2·(rf + zp·NG) "
-                "<= offset max/m",
-                f"NG {_g(spec.noise_gain)}, rf {_v(st.rf, 'resistance')}, zp "
-                f"{_v(st.zp, 'resistance')}, ΔT {_g(req.drift_span_c)} °C: Vos "
-                f"{_v(d['vos_out'], 'voltage')} + drift {_v(d['drift_out'], 'voltage')} + Ib "
-                f"{_v(d['ib_out'], 'voltage')} + Ios {_v(d['ios_out'], 'voltage')}")
-    if name == "noise":
-        return ("√((en·NG)² + in²·(rf² + (zp·NG)²) + 4kT·(rf + rf²/rg + zp·NG²)) × "
-                "√(π/2·f_cl) <= noise max/m",
-                f"en·NG {_v(d['en_out'], 'vnoise')}, in {_v(d['in_out'], 'vnoise')}, "
-                f"resistors {_v(d['r_out'], 'vnoise')} at {_g(req.temp_max_c)} °C; "
-                f"f_cl {_v(d['f_closed_loop'], 'frequency')}, noise bandwidth "
-                f"{_v(d['enbw'], 'frequency')}")
-    if name == "stock":
-        return ("packages × channels >= channels needed",
-                f"{_count(p['qty'][i])} × {_count(p['channels'][i])} vs {req.qty}")
-    return ("", "")
 
 
 __all__ = ["limit_line", "percent", "pick_text", "spec_text", "stage_line", "why_text"]

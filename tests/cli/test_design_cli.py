@@ -20,15 +20,15 @@ def test_spec_table_and_json() -> None:
     # by hand: 2π × 20 kHz × 5 V × 1.25 = 0.785 V/µs (slew of a sine at its zero crossing)
     assert "0.785 V/µs" in out and "margin 1.25" in out and "gain-error budget" in out
     js = json.loads(run("spec", *STAGE, "--json").stdout)
-    assert set(js) == {"signal_gain", "noise_gain", "margin", "min"}
-    assert_allclose(js["min"]["slew_rate"], 2 * math.pi * 20e3 * 5 * 1.25, rtol=1e-12)
-    assert js["min"]["supply_span"] == 24.0 and js["margin"] == 1.25
+    assert set(js) == {"signal_gain", "noise_gain", "margin", "min", "budget"}
+    assert_allclose(js["min"]["slew_v_per_s"], 2 * math.pi * 20e3 * 5 * 1.25, rtol=1e-12)
+    assert js["min"]["supply_span_v"] == 24.0 and js["margin"] == 1.25
 
 
 def test_spec_explain_shows_formulas_and_numbers() -> None:
     out = run("spec", *STAGE, "--explain", "--margin", "1").stdout
     assert "formula: SR >= 2π·f·Vp,out·m" in out
-    assert "numbers: 2π × 20 kHz × 5 V × 1 = 0.628 V/µs" in out
+    assert "numbers: 2π × 20 kHz × 5 V × 1 = 0.6283 V/µs" in out
     assert out.count("formula:") >= 12
 
 
@@ -116,7 +116,7 @@ def test_design_file_and_override(tmp_path: Path, db: str) -> None:
                       'rails = "±12"\nload = "2k"\n')
     a = json.loads(run("spec", "--design", str(design), "--json").stdout)
     b = json.loads(run("spec", "--design", str(design), "--freq", "10kHz", "--json").stdout)
-    assert_allclose(b["min"]["slew_rate"], a["min"]["slew_rate"] / 2, rtol=1e-12)
+    assert_allclose(b["min"]["slew_v_per_s"], a["min"]["slew_v_per_s"] / 2, rtol=1e-12)
     design.write_text('topology = "inverting"\ngain = "x"\n')
     r = fails("spec", "--design", str(design))
     assert "stage.toml: gain" in r.stderr

@@ -17,7 +17,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from picker.design.checks import run_checks
+from picker.checks import run_checks
 from picker.design.requirement import Requirement
 from picker.design.spec import Spec, minimum_specs
 
@@ -33,11 +33,11 @@ def comfortable(s: Spec) -> dict[str, float]:
     """A part with room on every check of this stage."""
     mn = s.minimum
     return {
-        "slew_v_per_s": 10 * mn["slew_rate"], "gbw_hz": 2 * mn["gbw"],
+        "slew_v_per_s": 10 * mn.slew_v_per_s, "gbw_hz": 2 * mn.gbw_hz,
         "aol_v_per_v": 1e9, "rin_ohm": 1e15, "rout_ohm": 0.0,
         "out_head_pos_v": 0.0, "out_head_neg_v": 0.0, "cm_head_pos_v": 0.0, "cm_head_neg_v": 0.0,
-        "iout_a": 10 * mn["output_current"] + 1e-3,
-        "supply_min_v": 0.5 * mn["supply_span"], "supply_max_v": 2 * mn["supply_span"],
+        "iout_a": 10 * mn.iout_a + 1e-3,
+        "supply_min_v": 0.5 * mn.supply_span_v, "supply_max_v": 2 * mn.supply_span_v,
         "vos_v": 0.0, "drift_v_per_c": 0.0, "ib_a": 0.0, "ios_a": 0.0,
         "en_v_per_rthz": 0.0, "in_a_per_rthz": 0.0, "qty": 1000.0, "channels": 1.0,
     }  # type: ignore[dict-item]
@@ -65,23 +65,23 @@ def variants(s: Spec, k: float) -> dict[str, dict[str, float]]:
     req, mn, st = s.requirement, s.minimum, s.stage
     base = comfortable(s)
     out: dict[str, dict[str, float]] = {}
-    out["slew"] = {**base, "slew_v_per_s": k * mn["slew_rate"]}
-    up, down = mn["swing_pos"] - req.ref, req.ref - mn["swing_neg"]
+    out["slew"] = {**base, "slew_v_per_s": k * mn.slew_v_per_s}
+    up, down = mn.swing_pos_v - req.ref, req.ref - mn.swing_neg_v
     out["swing"] = {**base, "out_head_pos_v": req.rail_pos - req.ref - k * up,
                     "out_head_neg_v": req.ref - req.rail_neg - k * down}
     lo, hi = s.common_mode
     if hi > lo:
         out["common_mode"] = {**base, "cm_head_pos_v": req.rail_pos - req.ref - k * (hi - req.ref),
                               "cm_head_neg_v": req.ref - req.rail_neg - k * (req.ref - lo)}
-    if mn["output_current"]:
-        out["output_current"] = {**base, "iout_a": k * mn["output_current"]}
+    if mn.iout_a:
+        out["output_current"] = {**base, "iout_a": k * mn.iout_a}
     out["supply_max"] = {**base, "supply_max_v": k * req.span}
     out["supply_min"] = {**base, "supply_min_v": req.span / k}
-    rin = mn["input_resistance"] or 1e15
-    at_min = {**base, "aol_v_per_v": mn["open_loop_gain"], "gbw_hz": mn["gbw"], "rin_ohm": rin}
-    out["gain_accuracy_gbw"] = {**at_min, "gbw_hz": k * mn["gbw"]}
-    out["gain_accuracy_a0"] = {**at_min, "aol_v_per_v": k * mn["open_loop_gain"]}
-    if mn["input_resistance"] is not None:
+    rin = mn.rin_ohm or 1e15
+    at_min = {**base, "aol_v_per_v": mn.aol_v_per_v, "gbw_hz": mn.gbw_hz, "rin_ohm": rin}
+    out["gain_accuracy_gbw"] = {**at_min, "gbw_hz": k * mn.gbw_hz}
+    out["gain_accuracy_a0"] = {**at_min, "aol_v_per_v": k * mn.aol_v_per_v}
+    if mn.rin_ohm is not None:
         out["gain_accuracy_rin"] = {**at_min, "rin_ohm": k * rin}
     if req.offset_max_v is not None:
         ng = 1 + (0 if math.isinf(st.rg) else st.rf / st.rg)
@@ -108,7 +108,7 @@ CHECK_OF = {"supply_max": "supply", "supply_min": "supply", "gain_accuracy_gbw":
 def test_comfortable_part_passes_everything(case: dict[str, Any]) -> None:
     s = minimum_specs(requirement(case))
     table = run_checks(pd.DataFrame([comfortable(s)], index=["comfortable"]), s)
-    assert {n: r.status[0] for n, r in table.results.items()} == {n: "pass" for n in table.results}
+    assert {n: r.status(0) for n, r in table.results.items()} == {n: "pass" for n in table.results}
     assert set(table.results) == {"swing", "common_mode", "slew", "gain_accuracy",
                                   "output_current", "supply", "offset", "noise", "stock"}
 
@@ -123,7 +123,7 @@ def test_two_percent_either_side(case: dict[str, Any], k: float, expected: str) 
     assert len(parts) >= 8
     for i, name in enumerate(parts):
         check = CHECK_OF.get(name, name)
-        got = {n: str(r.status[i]) for n, r in table.results.items()}
+        got = {n: str(r.status(i)) for n, r in table.results.items()}
         want = {n: "pass" for n in got} | {check: expected}
         assert got == want, f"{name} at {k:g}: {got}"
         margin = table.results[check].margin[i]  # type: ignore[index]
@@ -140,4 +140,4 @@ def test_stock_counts_channels(case: dict[str, Any]) -> None:
             "five, channels unknown": {**base, "qty": 5.0, "channels": np.nan},
             "four, channels unknown": {**base, "qty": 4.0, "channels": np.nan}}
     table = run_checks(pd.DataFrame(list(rows.values()), index=list(rows)), s)
-    assert list(table.results["stock"].status) == ["pass", "fail", "pass", "unknown"]
+    assert table.results["stock"].statuses() == ["pass", "fail", "pass", "unknown"]

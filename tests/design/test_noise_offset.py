@@ -10,8 +10,8 @@ import numpy as np
 import pandas as pd
 from numpy.testing import assert_allclose
 
-from picker.design.accuracy import BOLTZMANN
-from picker.design.checks import run_checks
+from picker.checks import run_checks
+from picker.checks.accuracy import BOLTZMANN
 from picker.design.requirement import Requirement
 from picker.design.spec import minimum_specs
 from tests.design.reference import Circuit, OpAmp, ngspice_dc, ngspice_noise, stage_circuit
@@ -140,5 +140,5 @@ def test_unknown_parameters_never_pass_silently() -> None:
         index=["small Vos, Ib unknown", "large Vos, Ib unknown"])
     t = run_checks(frame, minimum_specs(req))
     # unknown Ib: unknown unless the known terms already exceed the limit (50 mV > 8 mV)
-    assert list(t.results["offset"].status) == ["unknown", "fail"]
-    assert list(t.results["noise"].status) == ["unknown", "unknown"]
+    assert t.results["offset"].statuses() == ["unknown", "fail"]
+    assert t.results["noise"].statuses() == ["unknown", "unknown"]

@@ -3,15 +3,17 @@
 from __future__ import annotations
 
 import json
+from dataclasses import fields
 
 import numpy as np
 import pandas as pd
 import pytest
 from numpy.testing import assert_allclose
 
+from picker.checks import by_name
 from picker.design.rank import select
 from picker.design.requirement import Requirement
-from picker.design.spec import MIN_KEYS
+from picker.design.spec import Minimums
 from picker.errors import BadValue
 
 REQ = Requirement("non-inverting", 10.0, 12.0, -12.0, 10e3, vin_pk=0.5, load_ohm=2e3)
@@ -67,8 +69,8 @@ def test_strict_rejects_unknowns() -> None:
 def test_json_shape() -> None:
     js = json.loads(json.dumps(select(PARTS, REQ).to_json(), allow_nan=False))
     assert set(js) == {"spec", "accepted", "rejected", "unverified"}
-    assert set(js["spec"]) == {"signal_gain", "noise_gain", "margin", "min"}
-    assert tuple(js["spec"]["min"]) == MIN_KEYS
+    assert set(js["spec"]) == {"signal_gain", "noise_gain", "margin", "min", "budget"}
+    assert tuple(js["spec"]["min"]) == tuple(f.name for f in fields(Minimums))
     assert set(js["accepted"][0]) == {"part", "checks"}
     assert set(js["rejected"][0]) == {"part", "fails", "checks"}
     checks = js["accepted"][0]["checks"]
@@ -112,6 +114,6 @@ def test_parts_with_nothing_recorded_are_unverified_not_passed() -> None:
     assert sel.accepted == [] and sel.rejected == []
     assert sel.unverified[0].unknown == ["swing", "common_mode", "slew", "gain_accuracy",
                                          "output_current", "supply", "offset", "noise"]
-    assert sel.table.results["offset"].fields == ("vos_v", "ib_a", "ios_a")  # no drift at 25 °C
+    assert by_name("offset").needed(sel.spec) == ("vos_v", "ib_a", "ios_a")  # no drift at 25 °C
     empty = select(PARTS.iloc[:0], REQ)
     assert (empty.accepted, empty.rejected, empty.unverified, empty.nearest) == ([], [], [], [])

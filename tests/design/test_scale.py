@@ -1,9 +1,8 @@
 """The checks at catalogue scale: same verdicts as a per-row loop, only the needed
-columns read, the expanded loop coefficients against sympy, branch-free selection
-against numpy.where.
+columns read, the expanded loop coefficients against sympy.
 
 scripts/bench times the vectorised checks against scripts/bench_loop.py, a per-row
-formulation written from the formulas in the docstrings of picker.design.limits and
+formulation written from the formulas in the docstrings of picker.checks.limits and
 .accuracy (math and complex scalars, one part at a time). The first test proves the
 two reach the same verdicts, so the benchmark compares like with like.
 """
@@ -21,9 +20,9 @@ import pytest
 import sympy as sp
 from numpy.testing import assert_allclose, assert_array_equal
 
-from picker.design.checks import Parts, needed_columns, run_checks, select_where
+from picker.checks import Parts, needed_columns, run_checks
+from picker.checks.core import result, worse
 from picker.design.circuit import loop
-from picker.design.coded import Words, choose
 from picker.design.requirement import requirement_from
 from picker.design.spec import minimum_specs
 from picker.design.topology import Stage
@@ -71,7 +70,7 @@ def test_vectorised_checks_match_the_per_row_loop(frame: Any, options: dict[str,
     verdicts = loop_checks.verdicts(margins)
     assert list(margins) == list(table.results)
     for name, r in table.results.items():
-        assert list(r.status) == verdicts[name], name
+        assert r.statuses() == verdicts[name], name
         # the same formulas in a different order of operations: equal to rounding
         assert_allclose(np.array(margins[name]), r.margin, rtol=1e-6, err_msg=name)
 
@@ -81,7 +80,7 @@ def test_the_loop_comparison_is_not_vacuous(frame: Any) -> None:
     for options in STAGES:
         table = run_checks(Parts(frame), minimum_specs(requirement_from(options)))
         for name, r in table.results.items():
-            seen.setdefault(name, set()).update(r.status)
+            seen.setdefault(name, set()).update(r.statuses())
     assert all({"pass", "fail"} <= s for s in seen.values()), seen
     assert all("unknown" in seen[n] for n in ("gain_accuracy", "offset", "noise", "slew"))
 
@@ -135,19 +134,6 @@ def test_expanded_loop_coefficients_match_sympy_nodal_analysis(values: tuple[flo
         assert_allclose(got, want, rtol=1e-12, atol=1e-15)
 
 
-def test_branch_free_selection_matches_numpy_where() -> None:
-    rng = np.random.default_rng(3)
-    x, y = rng.normal(size=1000), rng.normal(size=1000)
-    x[::7], y[::5], x[::11], y[::13] = np.nan, np.inf, -np.inf, -0.0
-    mask = rng.random(1000) < 0.5
-    assert_array_equal(select_where(mask, x, y), np.where(mask, y, x))
-    a = Words(rng.integers(0, 2, 1000), ("toward V+", "toward V-"))
-    b = Words.same("rated minimum", 1000)
-    assert_array_equal(np.asarray(choose(mask, a, b)),
-                       np.where(mask, np.asarray(b), np.asarray(a)))
-    assert_array_equal(a == "toward V-", np.asarray(a) == "toward V-")
-
-
 def test_json_records_built_by_column_equal_the_per_part_records(frame: Any) -> None:
     table = run_checks(Parts(frame), minimum_specs(requirement_from(STAGES[0])))
     rows = [0, 5, 17, 399, 5]
@@ -155,7 +141,7 @@ def test_json_records_built_by_column_equal_the_per_part_records(frame: Any) -> 
 
 
 def _rule(ma: float, mb: float) -> str:
-    """The worse side by the rule of picker.design.checks.worse, one part at a time:
+    """The worse side by the rule of picker.checks.core.worse, one part at a time:
     fail < unknown < pass, then the smaller margin, a on a tie."""
     def rank(m: float) -> int:
         return 1 if math.isnan(m) else (2 if m >= 1 else 0)
@@ -165,8 +151,6 @@ def _rule(ma: float, mb: float) -> str:
 
 @pytest.mark.parametrize("same_need", [True, False])
 def test_worse_follows_the_rule_part_by_part(same_need: bool) -> None:
-    from picker.design.checks import result, worse
-
     rng = np.random.default_rng(5)
     values = np.array([0.5, 1.0, 2.0, 3.0, math.nan, 0.0, math.inf])
     ha = rng.choice(values, 500)
@@ -179,5 +163,5 @@ def test_worse_follows_the_rule_part_by_part(same_need: bool) -> None:
         side = a if _rule(a.margin[i], b.margin[i]) == "a" else b
         assert_array_equal([w.margin[i], w.has[i], w.need[i]],
                            [side.margin[i], side.has[i], side.need[i]])
-        assert (w.sense[i], w.note[i], w.status[i]) == (side.sense[i], side.note[i],
-                                                        side.status[i])
+        assert (w.sense[i], w.note[i], w.status(i)) == (side.sense[i], side.note[i],
+                                                        side.status(i))

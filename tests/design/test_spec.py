@@ -3,14 +3,16 @@
 from __future__ import annotations
 
 import math
+from dataclasses import fields
 from pathlib import Path
 
 import pytest
 import sympy as sp
 from numpy.testing import assert_allclose
 
+from picker.checks import applicable
 from picker.design.requirement import Requirement
-from picker.design.spec import MIN_KEYS, minimum_specs
+from picker.design.spec import Minimums, minimum_specs
 from tests.design.reference import OpAmp, ngspice_dc, ngspice_gains, stage_circuit, sympy_gain
 
 STAGES = [
@@ -27,7 +29,7 @@ STAGES = [
 
 def at_minimums(req: Requirement) -> OpAmp:
     mn = minimum_specs(req).minimum
-    return OpAmp(mn["open_loop_gain"], mn["gbw"], mn["input_resistance"], None)  # type: ignore[arg-type]
+    return OpAmp(mn.aol_v_per_v, mn.gbw_hz, mn.rin_ohm, None)  # type: ignore[arg-type]
 
 
 def circuit(req: Requirement, amp: OpAmp):  # type: ignore[no-untyped-def]
@@ -70,21 +72,21 @@ def test_gbw_is_the_single_pole_bound_when_a0_is_large(req: Requirement) -> None
     s = minimum_specs(req)
     e = req.gain_error / req.margin
     single_pole = req.freq_hz * s.noise_gain / math.sqrt(1 / (1 - e) ** 2 - 1)
-    assert single_pole < s.minimum["gbw"]  # type: ignore[operator]
-    assert s.minimum["gbw"] < 2.5 * single_pole  # type: ignore[operator]
+    assert single_pole < s.minimum.gbw_hz  # type: ignore[operator]
+    assert s.minimum.gbw_hz < 2.5 * single_pole  # type: ignore[operator]
 
 
 def test_slew_and_current_by_hand() -> None:
     req = Requirement("inverting", 10.0, 12.0, -12.0, 20e3, vin_pk=0.5, load_ohm=2e3)
     s = minimum_specs(req)
     # by hand: 2π × 20 kHz × 5 V × 1.25 = 0.785 V/µs
-    assert_allclose(s.minimum["slew_rate"], 2 * math.pi * 20e3 * 5 * 1.25, rtol=1e-12)
-    assert_allclose(s.minimum["slew_rate"], 0.785398e6, rtol=1e-6)
+    assert_allclose(s.minimum.slew_v_per_s, 2 * math.pi * 20e3 * 5 * 1.25, rtol=1e-12)
+    assert_allclose(s.minimum.slew_v_per_s, 0.785398e6, rtol=1e-6)
     # by hand: 5 V into 2 kΩ plus 5 V across rf = 10 kΩ (virtual ground), × 1.25 = 3.75 mA
-    assert_allclose(s.minimum["output_current"], 3.75e-3, rtol=1e-12)
+    assert_allclose(s.minimum.iout_a, 3.75e-3, rtol=1e-12)
     # by hand: the stated 5 V peak on the 0 V reference, not scaled by the margin
-    assert s.minimum["swing_pos"] == 5.0 and s.minimum["swing_neg"] == -5.0
-    assert s.minimum["supply_span"] == 24.0
+    assert s.minimum.swing_pos_v == 5.0 and s.minimum.swing_neg_v == -5.0
+    assert s.minimum.supply_span_v == 24.0
 
 
 def test_output_current_matches_ngspice(tmp_path: Path) -> None:
@@ -95,24 +97,24 @@ def test_output_current_matches_ngspice(tmp_path: Path) -> None:
     for req, (v, i) in zip(reqs, ngspice_dc(sims, tmp_path), strict=True):
         s = minimum_specs(req)
         # ngspice .op: |i_out/v_out| of the macromodel's output source
-        assert_allclose(s.minimum["output_current"] / req.vout, abs(i / v), rtol=1e-6)
+        assert_allclose(s.minimum.iout_a / req.vout, abs(i / v), rtol=1e-6)
 
 
 def test_spec_json_shape_and_explain() -> None:
     s = minimum_specs(STAGES[0])
     js = s.to_json()
-    assert set(js) == {"signal_gain", "noise_gain", "margin", "min"}
-    assert tuple(js["min"]) == MIN_KEYS
+    assert set(js) == {"signal_gain", "noise_gain", "margin", "min", "budget"}
+    assert tuple(js["min"]) == tuple(f.name for f in fields(Minimums))
     assert js["margin"] == 1.25 and js["signal_gain"] == 10.0 and js["noise_gain"] == 11.0
     names = [e.name for e in s.explain]
-    for key in MIN_KEYS:
-        assert key in names
+    for check in applicable(s):  # every check explains its need, under its own name
+        assert check.name in names
     for e in s.explain:
         assert e.formula and e.numbers and e.title
 
 
 def test_follower_from_a_stiff_source_needs_no_input_resistance() -> None:
     s = minimum_specs(STAGES[3])
-    assert s.minimum["input_resistance"] is None
+    assert s.minimum.rin_ohm is None
     assert s.budget.input_resistance is None
-    assert s.to_json()["min"]["input_resistance"] is None
+    assert s.to_json()["min"]["rin_ohm"] is None

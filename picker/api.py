@@ -1,0 +1,214 @@
+"""The library's front door: what every command does, for any front end.
+
+The command line parses options, calls one function here and renders its result; a
+notebook calls the same functions and gets the same results (``to_json()`` of each
+result is exactly what the command's ``--json`` prints). Defaults live here, not in the
+command line: unless the stage names its own resistors, every function works on the
+stage as it would be built, with its network designed from E24 values
+(picker.design.network; a pinned ``rf`` is kept).
+
+>>> from picker import api
+>>> req = api.requirement(topology="inverting", gain=10, vin="0.5V", freq="20kHz",
+...                       rails="±12")
+>>> api.spec(req).minimum.slew_v_per_s  # doctest: +SKIP
+785398.16...
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+from picker.checks import CheckTable, Parts, needed_columns, run_checks
+from picker.design.rank import By, Selection, select
+from picker.design.requirement import Requirement, requirement_from
+from picker.design.series import SeriesName
+from picker.design.spec import Spec, minimum_specs
+
+DEFAULT_SERIES: SeriesName = "E24"
+
+
+def requirement(design: str | Path | None = None, **options: Any) -> Requirement:
+    """A stage requirement from option values (and a TOML design file; options win).
+
+    Parameters
+    ----------
+    design : str or Path, optional
+        A TOML design file with the same keys.
+    **options
+        Requirement keys (``topology``, ``gain``, ``vin``, ``freq``, ``rails``, ...) as
+        text with units (``"20kHz"``) or numbers in SI units.
+
+    Returns
+    -------
+    Requirement
+    """
+    return requirement_from({k: v for k, v in options.items() if v is not None}, design)
+
+
+def built(req: Requirement, series: SeriesName = DEFAULT_SERIES) -> Requirement:
+    """The stage as it would be built: ``req`` with its network designed from standard
+    values unless it names its own (``rf``, when given, is kept).
+
+    Parameters
+    ----------
+    req : Requirement
+    series : str
+        IEC 60063 series of the designed resistors (default E24).
+
+    Returns
+    -------
+    Requirement
+        With ``network`` set (resistances in Ω).
+    """
+    from picker.design.network import with_designed_network
+
+    return with_designed_network(req, series=series,
+                                 feedback_ohm=req.rf_ohm if req.rf_pinned else None)
+
+
+def spec(req: Requirement) -> Spec:
+    """The minimum specifications of the stage as built.
+
+    Returns
+    -------
+    Spec
+        Signal and noise gain (V/V), the gain-error budget split and ``minimum``
+        (a ``Minimums``: slew in V/s, GBW in Hz, A0 in V/V, Rin in Ω, levels in V,
+        output current in A); ``to_json()`` is ``picker spec --json``.
+    """
+    return minimum_specs(built(req))
+
+
+def parts_for(spec_: Spec, store: Any) -> Parts:
+    """The columns of every part that checking ``spec_`` reads, from a Store."""
+    return Parts.from_columns(*store.parts_columns(needed_columns(spec_)))
+
+
+def pick(req: Requirement, parts: Parts | Any, *, by: By = "margin", top: int | None = None,
+         strict: bool = False) -> Selection:
+    """Check every part against the stage as built; rank the accepted ones.
+
+    Parameters
+    ----------
+    req : Requirement
+    parts : Parts, DataFrame or Store
+        The parts to check; a Store is read for just the columns the checks need.
+    by : {"margin", "price", "stock"}
+        Order of the accepted parts.
+    top : int, optional
+        Keep only the best ``top`` accepted parts.
+    strict : bool
+        Reject parts with unknown values instead of listing them as unverified.
+
+    Returns
+    -------
+    Selection
+        Accepted, rejected and unverified parts with every check's record;
+        ``to_json()`` is ``picker pick --json --list all``.
+    """
+    b = built(req)
+    if hasattr(parts, "parts_columns"):
+        parts = parts_for(minimum_specs(b), parts)
+    return select(parts, b, by=by, top=top, strict=strict)
+
+
+@dataclass(frozen=True)
+class PartReport:
+    """One part's check sheet for a stage (``picker why``)."""
+
+    part: str
+    spec: Spec
+    table: CheckTable
+    parts: Parts
+
+    @property
+    def verdict(self) -> str:
+        """``pass``, ``fail`` or ``unknown`` (fail wins over unknown)."""
+        return self.table.verdict(0)
+
+    def to_json(self) -> dict[str, Any]:
+        """``picker why --json``: part, spec, verdict and each check's record (SI)."""
+        return {"part": self.part, "spec": self.spec.to_json(), "verdict": self.verdict,
+                "checks": self.table.records(0)}
+
+
+def why(req: Requirement, part: str, store: Any) -> PartReport:
+    """Every check of one part (by label) in the stage as built.
+
+    Raises NotFound (with the fix) when the label is not in the stockroom.
+    """
+    from picker.store import Condition
+
+    store.get(part)  # NotFound, with a hint, when the label is not in the stockroom
+    parts = Parts(store.parts_frame(conditions=[Condition("label", "=", part)]))
+    s = spec(req)
+    return PartReport(part, s, run_checks(parts, s), parts)
+
+
+def design_network(req: Requirement, part: Mapping[str, Any] | None = None, *,
+                   series: SeriesName = DEFAULT_SERIES, tolerance: float = 0.01,
+                   zin_ohm: float | None = None) -> Any:
+    """The stage's resistor network from standard values (``picker net``).
+
+    Parameters
+    ----------
+    req : Requirement
+    part : mapping, optional
+        A part's row: its output current, bias and noise currents, Rin, A0 and GBW
+        become limits of the search.
+    series : str
+        IEC 60063 series (E3 .. E192).
+    tolerance : float
+        Resistor tolerance (ratio) for the worst case and the Monte Carlo spread.
+    zin_ohm : float, optional
+        Smallest input impedance the source may see, Ω.
+
+    Returns
+    -------
+    picker.design.network.Network
+        ``as_json()`` is ``picker net --json``.
+    """
+    from picker.design.network import design_network as design
+
+    return design(req, part, series=series, tolerance=tolerance, zin_ohm=zin_ohm,
+                  feedback_ohm=req.rf_ohm if req.rf_pinned else None)
+
+
+def waveform(req: Requirement, parts: Any, freq_hz: float | None = None) -> Any:
+    """Predicted output waveforms of the given parts (rows) in the stage as built.
+
+    Returns
+    -------
+    picker.design.waveform.Waves
+        ``summary(i)`` is ``picker wave PART --json`` (volts, THD as a ratio).
+    """
+    from picker.design.waveform import waveforms
+
+    return waveforms(built(req), parts, freq_hz)
+
+
+def candidates(req: Requirement, parts: Any, n: int = 4) -> Any:
+    """The predicted waveforms of the best ``n`` candidates in pick's order."""
+    from picker.design.waveform import candidate_waveforms
+
+    return candidate_waveforms(built(req), parts, n)
+
+
+def response(req: Requirement, parts: Any, freq_hz: float | None = None) -> Any:
+    """Closed-loop frequency response of the given parts in the stage as built.
+
+    Returns
+    -------
+    picker.design.response.Response
+        ``summary(i)`` is ``picker bode PART --json`` (Hz, dB, degrees).
+    """
+    from picker.design.response import response as resp
+
+    return resp(built(req), parts, freq_hz)
+
+
+__all__ = ["PartReport", "built", "candidates", "design_network", "parts_for", "pick",
+           "requirement", "response", "spec", "waveform", "why"]

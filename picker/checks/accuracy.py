@@ -1,0 +1,297 @@
+"""Checks of accuracy: closed-loop gain error, DC output offset and output noise.
+
+All three refer errors to the output of the stage, per part, vectorised.
+
+gain_accuracy: the exact closed-loop gain of the circuit solver (single-pole A(s),
+Rin, Ro, source, load, network) at DC and at the top frequency; the error is
+| |G|/G - 1 | against the requested gain G, and the verdict is the worse of the two
+against the budget gain error / margin.
+
+offset (worst case over signs; ideal op-amp around the network, e.g. Franco, Design
+with Operational Amplifiers and Analog Integrated Circuits, 4th ed., ch. 5, from
+memory): Vos and its drift appear at the output times the noise gain NG; the bias
+current of the inverting input flows through rf; that of the non-inverting input
+through zp, times NG. With Ib± = Ib ± Ios/2:
+
+    Vout = NG·(|Vos| + |drift|·ΔT) + |Ib|·|rf - zp·NG| + Ios/2·(rf + zp·NG)
+
+noise (white densities at the output, added in power; same text, ch. 7):
+
+    en·NG,  in·rf,  in·zp·NG,  √(4kT·rf),  √(4kT·rg)·rf/rg,  √(4kT·zp)·NG
+
+integrated over the closed loop's noise bandwidth π/2·f_cl (single pole, f_cl the
+closed-loop pole of the exact loop); k = 1.380649e-23 J/K (exact, SI 2019, CODATA),
+T the hottest ambient. The load and Ro add nothing worth counting.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+
+from picker.checks import Check
+from picker.checks.core import Array, CheckResult, Parts, result
+from picker.design.circuit import Loop, closed_loop_pole_hz, loop, open_loop
+from picker.design.spec import Explained, rin_matters
+from picker.design.topology import Stage
+from picker.quantities import fmt
+
+if TYPE_CHECKING:
+    from picker.design.spec import Spec
+
+BOLTZMANN = 1.380649e-23  # J/K, exact since the 2019 SI redefinition (CODATA 2018)
+
+
+def _loop(p: Parts, st: Stage) -> Loop:
+    """The loop coefficients of these parts in this stage (shared by gain and noise)."""
+    key = ("loop", st.kp, st.zp, st.kg, st.rg, st.rf, st.load)
+    return p.memo(key, lambda: loop(st, p["rin_ohm"], p["rout_ohm"]))  # type: ignore[no-any-return]
+
+
+def _gains(p: Parts, st: Stage, f: float) -> tuple[Array, Array]:
+    """|G| at DC and at f, per part (see gain_accuracy).
+
+    Written with in-place operations: at a million parts each array is 8 MB, and
+    updating one in place moves less memory than writing a new one.
+    """
+    a0, gbw = p["aol_v_per_v"], p["gbw_hz"]
+    lp = _loop(p, st)
+    n0, d0 = lp.n0, lp.d0
+    with np.errstate(invalid="ignore", divide="ignore"):
+        num = np.multiply(a0, lp.n1)
+        num += n0
+        den = np.multiply(a0, lp.d1)
+        den += d0
+        g_dc = np.divide(num, den)
+        np.abs(g_dc, out=g_dc)
+        if not f:
+            return g_dc, g_dc
+        x = np.divide(f, gbw)
+        x *= a0
+        n0x = np.multiply(n0, x)
+        x *= d0  # now d0·x
+        num *= num
+        n0x *= n0x
+        num += n0x
+        den *= den
+        x *= x
+        den += x
+        num /= den
+        return g_dc, np.sqrt(num, out=num)
+
+
+def _errors(p: Parts, st: Stage, f: float) -> tuple[Array, Array]:
+    """Relative gain errors | |G|/G - 1 | at DC and at f, per part."""
+    out = []
+    for g in _gains(p, st, f):
+        e = np.multiply(g, 1 / st.gain)
+        e -= 1
+        out.append(np.abs(e, out=e))
+    return out[0], out[1]
+
+
+def _gain_accuracy(p: Parts, s: Spec) -> CheckResult:
+    """Worse of the exact gain errors at DC and at the top frequency vs the budget.
+
+    G = (n0 + n1·A)/(d0 + d1·A) with A = A0/(1 + jx), x = f·A0/GBW; multiplying
+    through by (1 + jx), |G(f)| = |num + j·n0·x| / |den + j·d0·x| with num = n0 + n1·A0,
+    den = d0 + d1·A0 (the DC gain is num/den): real arithmetic only.
+    """
+    err_dc, err_f = _errors(p, s.stage, s.requirement.freq_hz)
+    with np.errstate(invalid="ignore"):  # a DC failure is reported as such
+        has = np.where(err_dc > s.budget.allowed, err_dc, np.maximum(err_dc, err_f))
+    return result("gain_accuracy", "ratio", "<=", s.budget.allowed, has)
+
+
+def _gain_needs(s: Spec) -> tuple[str, ...]:
+    """A0 and GBW always; Rin where a resistance sits at an input; Ro where the output
+    drives a current (a load or a feedback resistor)."""
+    st = s.stage
+    out: tuple[str, ...] = ("aol_v_per_v", "gbw_hz")
+    if rin_matters(st):
+        out += ("rin_ohm",)
+    if not math.isinf(st.load) or st.rf > 0 or st.zp > 0:
+        out += ("rout_ohm",)
+    return out
+
+
+def _gain_explain(s: Spec) -> list[Explained]:
+    req, b, mn, ng = s.requirement, s.budget, s.minimum, s.noise_gain
+    m, f = req.margin, req.freq_hz
+    a0, rin, gbw = mn.aol_v_per_v, mn.rin_ohm, mn.gbw_hz
+    st = s.stage
+    rows = [Explained("gain_accuracy", "allowed gain error", b.allowed, "ratio",
+                      GAIN_ACCURACY.formula,
+                      f"{fmt(req.gain_error, 'ratio', 4)} / {m:g} = "
+                      f"{fmt(b.allowed, 'ratio', 4)}")]
+    rows.append(Explained(
+        "aol_v_per_v", "minimum open-loop gain", a0, "gain",
+        "A0 >= NG·(1 - eA)/eA  (DC loss 1/(1 + A0/NG) = eA, A0's share of the budget)",
+        "-" if a0 is None else
+        f"{ng:.5g} × (1 - {b.open_loop:.4g}) / {b.open_loop:.4g} = {a0:.5g}"))
+    rows.append(Explained(
+        "rin_ohm", "minimum input resistance", rin, "resistance",
+        "Rin = (rg·zp + rf·rg + rf·zp)/(rg·(N - NG)), N = A0,min·e_dc/(1 - e_dc)",
+        "does not matter here (no resistance at the inputs)" if rin is None else
+        f"rf {fmt(st.rf, 'resistance', 4)}, rg {fmt(st.rg, 'resistance', 4)}, zp "
+        f"{fmt(st.zp, 'resistance', 4)}, e_dc {b.dc:.4g} -> {fmt(rin, 'resistance', 4)}"))
+    if gbw is not None and a0 is not None:
+        lg = (1 - b.dc) / b.dc
+        gbw_numbers = (f"{fmt(f, 'frequency', 4)} × {a0:.5g} / √({lg:.5g}² / (1 - "
+                       f"{b.opamp:.4g})² - {1 + lg:.5g}²) = {fmt(gbw, 'frequency', 4)}")
+    else:
+        gbw_numbers = "-"
+    rows.append(Explained(
+        "gbw_hz", "minimum gain-bandwidth product", gbw, "frequency",
+        "GBW >= f·A0,min/√(L²/(1-ℓ)² - (1+L)²), L = (1 - e_dc)/e_dc: for the magnitude "
+        "error only (the phase shift at f is shown by why, not limited)", gbw_numbers))
+    return rows
+
+
+def _gain_detail(s: Spec, p: Parts, i: int) -> str:
+    one = p.take([i])
+    st, req = s.stage, s.requirement
+    f = req.freq_hz
+    err_dc, err_f = (float(e[0]) for e in _errors(one, st, f))
+    g_dc, g_f = (float(g[0]) for g in _gains(one, st, f))
+    sign = 1.0 if st.ideal_gain >= 0 else -1.0
+    g = _loop(one, st).gain(open_loop(one["aol_v_per_v"], one["gbw_hz"], f))
+    phase = float(np.degrees(np.angle(g * sign))[0])
+    pole = float(_pole(one, st)[0])
+    return (f"DC {g_dc:.7g} V/V ({err_dc:.4%}); at {fmt(f, 'frequency')} {g_f:.7g} V/V "
+            f"({err_f:.4%}), phase {phase:+.3g}° from the ideal; closed-loop pole "
+            f"{fmt(pole, 'frequency')}")
+
+
+GAIN_ACCURACY = Check(
+    name="gain_accuracy", kind="ratio", reads=("aol_v_per_v", "gbw_hz", "rin_ohm", "rout_ohm"),
+    run=_gain_accuracy, needs=_gain_needs,
+    formula="| |G|/G - 1 | <= gain error/m at DC and at f; G exact from the nodal solution "
+            "(A(s) = A0/(1 + s·A0/(2π·GBW)), Rin, Ro, source, load, network)",
+    explain=_gain_explain, detail=_gain_detail)
+
+
+def _pole(p: Parts, st: Stage) -> Array:
+    """The closed loop's pole per part (Hz)."""
+    return closed_loop_pole_hz(_loop(p, st), p["aol_v_per_v"], p["gbw_hz"])
+
+
+def _sum_known(terms: list[tuple[float, Array]], n: int) -> Array:
+    """Σ coef·|x| over the terms with a non-zero coefficient; an unknown x adds nothing
+    (the sum is then a lower bound: a part that fails on it fails for sure)."""
+    total = np.zeros(n)
+    for coef, x in terms:
+        if coef != 0:
+            total += coef * np.nan_to_num(np.abs(x), nan=0.0)
+    return total
+
+
+def _offset_terms(p: Parts, s: Spec) -> dict[str, tuple[float, Array]]:
+    st, req = s.stage, s.requirement
+    ng, rf, zp, dt = s.noise_gain, st.rf, st.zp, req.drift_span_c
+    return {
+        "vos_v": (ng, p["vos_v"]),
+        "drift_v_per_c": (ng * dt, p["drift_v_per_c"]),
+        "ib_a": (abs(rf - zp * ng), p["ib_a"]),
+        "ios_a": ((rf + zp * ng) / 2, p["ios_a"]),
+    }
+
+
+def _offset(p: Parts, s: Spec) -> CheckResult:
+    """Worst-case DC output offset against offset_max / margin (formula above)."""
+    assert s.requirement.offset_max_v is not None
+    total = _sum_known(list(_offset_terms(p, s).values()), len(p))
+    return result("offset", "voltage", "<=", s.requirement.offset_max_v / s.margin, total)
+
+
+def _offset_needs(s: Spec) -> tuple[str, ...]:
+    dummy = Parts.from_columns(np.array([], dtype=object), {})
+    return tuple(k for k, (c, _) in _offset_terms(dummy, s).items() if c != 0)
+
+
+def _limit_explain(name: str, title: str, limit: float | None, m: float,
+                   formula: str, extra: str) -> list[Explained]:
+    assert limit is not None
+    return [Explained(name, title, limit / m, "voltage", formula,
+                      f"{fmt(limit, 'voltage', 4)} / {m:g} = {fmt(limit / m, 'voltage', 4)}"
+                      f"{extra}")]
+
+
+def _offset_explain(s: Spec) -> list[Explained]:
+    req = s.requirement
+    return _limit_explain("offset", "allowed output offset", req.offset_max_v, s.margin,
+                          OFFSET.formula, f" (ΔT = {req.drift_span_c:g} °C)")
+
+
+def _offset_detail(s: Spec, p: Parts, i: int) -> str:
+    terms = _offset_terms(p.take([i]), s)
+    shown = [f"{k.split('_')[0]} {fmt(c * abs(float(x[0])), 'voltage')}"
+             for k, (c, x) in terms.items() if c != 0]
+    return (f"NG {s.noise_gain:.4g}, rf {fmt(s.stage.rf, 'resistance')}, zp "
+            f"{fmt(s.stage.zp, 'resistance')}: " + " + ".join(shown))
+
+
+OFFSET = Check(
+    name="offset", kind="voltage", reads=("vos_v", "drift_v_per_c", "ib_a", "ios_a"),
+    run=_offset, needs=_offset_needs,
+    formula="NG·(|Vos| + |drift|·ΔT) + |Ib|·|rf - zp·NG| + Ios/2·(rf + zp·NG) <= offset max/m",
+    explain=_offset_explain, detail=_offset_detail,
+    applies=lambda s: s.requirement.offset_max_v is not None)
+
+
+def _noise_parts(p: Parts, s: Spec) -> dict[str, Any]:
+    st, req = s.stage, s.requirement
+    ng, rf, zp, rg = s.noise_gain, st.rf, st.zp, st.rg
+    four_kt = 4 * BOLTZMANN * req.temp_max_k
+    r_density2 = four_kt * (rf + (0.0 if math.isinf(rg) else rf**2 / rg) + zp * ng**2)
+    i_gain2 = rf**2 + (zp * ng) ** 2
+    return {"ng": ng, "r_density2": r_density2, "i_gain2": i_gain2}
+
+
+def _noise(p: Parts, s: Spec) -> CheckResult:
+    """Output RMS noise over the closed-loop noise bandwidth against noise_max / margin."""
+    assert s.requirement.noise_max_v is not None
+    k = _noise_parts(p, s)
+    en, cur = p["en_v_per_rthz"], p["in_a_per_rthz"]
+    density2 = _sum_known([(k["ng"] ** 2, en * en), (k["i_gain2"], cur * cur)], len(p))
+    density2 += k["r_density2"]
+    enbw = _pole(p, s.stage) * (math.pi / 2)  # noise bandwidth of a single pole
+    with np.errstate(invalid="ignore"):
+        total = np.sqrt(density2 * np.nan_to_num(enbw, nan=0.0))
+    return result("noise", "voltage", "<=", s.requirement.noise_max_v / s.margin, total)
+
+
+def _noise_needs(s: Spec) -> tuple[str, ...]:
+    k = _noise_parts(Parts.from_columns(np.array([], dtype=object), {}), s)
+    return ("en_v_per_rthz",) + (("in_a_per_rthz",) if k["i_gain2"] > 0 else ()) + ("gbw_hz",)
+
+
+def _noise_explain(s: Spec) -> list[Explained]:
+    req = s.requirement
+    return _limit_explain("noise", "allowed output noise (RMS)", req.noise_max_v, s.margin,
+                          NOISE.formula, f" (resistors at {req.temp_max_c:g} °C)")
+
+
+def _noise_detail(s: Spec, p: Parts, i: int) -> str:
+    one = p.take([i])
+    k = _noise_parts(one, s)
+    pole = float(_pole(one, s.stage)[0])
+    en, cur = float(one["en_v_per_rthz"][0]), float(one["in_a_per_rthz"][0])
+    return (f"en·NG {fmt(k['ng'] * en, 'vnoise')}, in {fmt(math.sqrt(k['i_gain2']) * cur, 'vnoise')}"
+            f", resistors {fmt(math.sqrt(k['r_density2']), 'vnoise')}; closed-loop pole "
+            f"{fmt(pole, 'frequency')}, noise bandwidth {fmt(math.pi / 2 * pole, 'frequency')}")
+
+
+NOISE = Check(
+    name="noise", kind="voltage",
+    reads=("en_v_per_rthz", "in_a_per_rthz", "aol_v_per_v", "gbw_hz", "rin_ohm", "rout_ohm"),
+    run=_noise, needs=_noise_needs,
+    formula="√((en·NG)² + in²·(rf² + (zp·NG)²) + 4kT·(rf + rf²/rg + zp·NG²)) × √(π/2·f_cl) "
+            "<= noise max/m, f_cl the closed-loop pole",
+    explain=_noise_explain, detail=_noise_detail,
+    applies=lambda s: s.requirement.noise_max_v is not None)
+
+
+__all__ = ["BOLTZMANN", "GAIN_ACCURACY", "NOISE", "OFFSET"]

@@ -1,0 +1,310 @@
+"""The data of a check: the parts' columns, one check's result over all parts, a table.
+
+A check result is data: for each part a status (``pass``, ``fail``, ``unknown``), what
+the stage needs, what the part has, and the margin (has/need, or need/has for limits
+from above; >= 1 exactly when passing, NaN when unknown). Statuses, senses and side
+notes are ``int8`` codes into a short tuple of words (at a million parts: 0.36 ms per
+check instead of 13 ms for numpy strings); a word is looked up only for a row shown.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Iterator, Mapping
+from dataclasses import dataclass
+from functools import cached_property
+from typing import Any, Literal
+
+import numpy as np
+import numpy.typing as npt
+
+from picker.fields import NUMERIC
+from picker.quantities import Kind
+
+Status = Literal["pass", "fail", "unknown"]
+Array = npt.NDArray[np.float64]
+Codes = npt.NDArray[np.int8]
+Strings = npt.NDArray[np.object_]
+
+#: Status words by code: 0 fail, 1 unknown, 2 pass (so the smaller code is the worse).
+STATUS_WORDS: tuple[Status, ...] = ("fail", "unknown", "pass")
+
+
+class Parts(Mapping[str, Array]):
+    """The numeric columns of a parts table as float arrays (NaN = unknown).
+
+    Built from a DataFrame indexed by label (Store.parts_frame) or from plain columns
+    (``Parts.from_columns``). A field the table does not hold reads as all unknown.
+    """
+
+    def __init__(self, frame: Any) -> None:
+        labels = frame.index.to_numpy(dtype=object)
+        cols = {name: frame[name].to_numpy(dtype=float, na_value=np.nan)
+                for name in NUMERIC if name in frame.columns}
+        self._set(labels, cols)
+
+    @classmethod
+    def from_columns(cls, labels: npt.ArrayLike, columns: Mapping[str, npt.ArrayLike]) -> Parts:
+        """Parts from labels and float columns named by field (missing fields unknown)."""
+        out = object.__new__(cls)
+        out._set(np.asarray(labels, dtype=object),
+                 {k: np.asarray(v, dtype=float) for k, v in columns.items() if k in NUMERIC})
+        return out
+
+    def _set(self, labels: npt.NDArray[Any], cols: dict[str, Array]) -> None:
+        if len(labels) and not all(isinstance(x, str) for x in labels[:1000].tolist()):
+            labels = np.array([str(x) for x in labels.tolist()], dtype=object)
+        self.labels: Strings = labels
+        self._cols = cols
+        self._memo: dict[Any, Any] = {}
+
+    def __getitem__(self, name: str) -> Array:
+        col = self._cols.get(name)
+        if col is None:
+            if name not in NUMERIC:
+                raise KeyError(name)
+            col = self._cols[name] = np.full(len(self.labels), np.nan)
+        return col
+
+    def __iter__(self) -> Iterator[str]:
+        return iter(NUMERIC)
+
+    def __len__(self) -> int:
+        return len(self.labels)
+
+    def memo(self, key: Any, make: Callable[[], Any]) -> Any:
+        """A value computed once per Parts (e.g. the loop coefficients two checks share)."""
+        if key not in self._memo:
+            self._memo[key] = make()
+        return self._memo[key]
+
+    def forget(self) -> None:
+        """Drop the memo (values two checks shared; recomputed if asked again)."""
+        self._memo.clear()
+
+    def take(self, index: npt.ArrayLike) -> Parts:
+        """The same columns for a subset of rows."""
+        idx = np.asarray(index)
+        out = object.__new__(Parts)
+        out._set(self.labels[idx], {k: v[idx] for k, v in self._cols.items()})
+        return out
+
+    def row(self, i: int) -> dict[str, float]:
+        """Every known column of part i as plain floats (NaN = unknown)."""
+        return {k: float(v[i]) for k, v in self._cols.items()}
+
+
+@dataclass(frozen=True)
+class Coded:
+    """One word per part as int8 codes into ``words`` (``coded[i]`` is a word)."""
+
+    codes: Codes
+    words: tuple[str, ...]
+
+    @classmethod
+    def same(cls, word: str, n: int) -> Coded:
+        """The same word for n parts (a read-only broadcast: no memory per part)."""
+        return cls(np.broadcast_to(np.int8(0), (n,)), (word,))
+
+    def __getitem__(self, i: int) -> str:
+        return self.words[int(self.codes[i])]
+
+    def __len__(self) -> int:
+        return len(self.codes)
+
+
+def merged(pick_b: npt.NDArray[np.bool_], a: Coded, b: Coded) -> Coded:
+    """Per part b's word where ``pick_b``, else a's."""
+    words = a.words + tuple(w for w in b.words if w not in a.words)
+    remap = np.array([words.index(w) for w in b.words], dtype=np.int8)
+    return Coded(np.where(pick_b, remap[b.codes], a.codes).astype(np.int8), words)
+
+
+@dataclass(frozen=True)
+class CheckResult:
+    """One check over all parts (arrays aligned with the parts' labels)."""
+
+    name: str
+    kind: Kind  # unit of need and has
+    sense: Coded  # ">=": has must reach need; "<=": has must stay below need
+    need: Array
+    has: Array
+    margin: Array
+    note: Coded  # short per-part remark ("" when none)
+
+    @cached_property
+    def code(self) -> Codes:
+        """Per part 0 fail, 1 unknown, 2 pass (margin >= 1 passes; NaN is unknown)."""
+        return status_codes(self.margin)
+
+    def status(self, i: int) -> Status:
+        """Part i's status."""
+        return STATUS_WORDS[int(status_codes(self.margin[i:i + 1])[0])]
+
+    def statuses(self) -> list[Status]:
+        """Every part's status (words for all rows: for small tables)."""
+        return [STATUS_WORDS[c] for c in self.code.tolist()]
+
+    def record(self, i: int) -> dict[str, Any]:
+        """The JSON record of part i: status, need, has, margin (SI units)."""
+        return {"status": self.status(i), "need": _num(self.need[i]),
+                "has": _num(self.has[i]), "margin": _num(self.margin[i])}
+
+
+def status_codes(margin: Array) -> Codes:
+    """0 fail, 1 unknown, 2 pass per margin."""
+    with np.errstate(invalid="ignore"):
+        code = np.where(margin >= 1, 2, 0).astype(np.int8)
+    code[np.isnan(margin)] = 1
+    return code
+
+
+def _plain(x: Array) -> list[float | None]:
+    """Floats as a list, None where not finite (JSON has no NaN or infinity)."""
+    values: list[float | None] = x.tolist()
+    for k in np.flatnonzero(~np.isfinite(x)).tolist():
+        values[k] = None
+    return values
+
+
+def _num(x: float) -> float | None:
+    x = float(x)
+    return x if np.isfinite(x) else None
+
+
+def at_least(need: npt.ArrayLike, has: npt.ArrayLike) -> Array:
+    """Margin has/need of a 'has >= need' limit (need 0: ±inf by the sign of has)."""
+    need_a, has_a = np.broadcast_arrays(np.asarray(need, float), np.asarray(has, float))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        m = has_a / need_a
+        zero = np.where(has_a >= 0, np.inf, -np.inf)
+    return np.where((need_a == 0) & ~np.isnan(has_a), zero, m)
+
+
+def at_most(need: npt.ArrayLike, has: npt.ArrayLike) -> Array:
+    """Margin need/has of a 'has <= need' limit (has 0: inf)."""
+    need_a, has_a = np.broadcast_arrays(np.asarray(need, float), np.asarray(has, float))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.where(has_a == 0, np.inf, need_a / has_a)
+
+
+def result(name: str, kind: Kind, sense: str, need: npt.ArrayLike, has: npt.ArrayLike,
+           note: Coded | str = "") -> CheckResult:
+    """A check's result from what is needed and what each part has.
+
+    ``need`` may be one number for all parts (kept as a read-only broadcast).
+    """
+    has_a = np.asarray(has, dtype=float)
+    n = has_a.shape[0]
+    need_a = np.broadcast_to(np.asarray(need, dtype=float), has_a.shape)
+    margin = (at_least if sense == ">=" else at_most)(need_a, has_a)
+    words = Coded.same(note, n) if isinstance(note, str) else note
+    return CheckResult(name, kind, Coded.same(sense, n), need_a, has_a, margin, words)
+
+
+def worse(a: CheckResult, b: CheckResult) -> CheckResult:
+    """Per part the worse of two partial results of one check (e.g. the two rails).
+
+    Worse is fail < unknown < pass, and the smaller margin between equals (a on a tie).
+    """
+    ca, cb = a.code, b.code
+    with np.errstate(invalid="ignore"):
+        pick_b = (cb < ca) | ((cb == ca) & (b.margin < a.margin))
+    return CheckResult(a.name, a.kind, merged(pick_b, a.sense, b.sense),
+                       np.where(pick_b, b.need, a.need), np.where(pick_b, b.has, a.has),
+                       np.where(pick_b, b.margin, a.margin), merged(pick_b, a.note, b.note))
+
+
+def unknown_unless_failing(r: CheckResult, missing: npt.NDArray[np.bool_]) -> CheckResult:
+    """``r`` with every part that lacks a needed value and does not fail made unknown.
+
+    A value left out of a part is never taken as ideal: a check that a part passes only
+    with an assumed value is unverified; a check it fails on what is known fails.
+    """
+    if not missing.any():
+        return r
+    with np.errstate(invalid="ignore"):
+        hide = missing & ~(r.margin < 1)
+    return CheckResult(r.name, r.kind, r.sense, r.need, np.where(hide, np.nan, r.has),
+                       np.where(hide, np.nan, r.margin), r.note)
+
+
+@dataclass(frozen=True)
+class CheckTable:
+    """All applicable checks over all parts, in report order."""
+
+    labels: Strings
+    results: dict[str, CheckResult]
+    ranked: frozenset[str]  # checks that measure headroom (enter the ranking margin)
+
+    def __len__(self) -> int:
+        return len(self.labels)
+
+    def names_with(self, status: Status, rows: npt.ArrayLike) -> list[list[str]]:
+        """For each of the given rows, the check names with the given status."""
+        idx = np.asarray(rows, dtype=int)
+        names = list(self.results)
+        if not names:
+            return [[] for _ in idx]
+        code = STATUS_WORDS.index(status)
+        mask = np.stack([status_codes(self.results[n].margin[idx]) == code for n in names],
+                        axis=1).tolist()
+        return [[n for n, hit in zip(names, row, strict=True) if hit] for row in mask]
+
+    def any_status(self, status: Status) -> npt.NDArray[np.bool_]:
+        code = STATUS_WORDS.index(status)
+        out = np.zeros(len(self.labels), dtype=bool)
+        for r in self.results.values():
+            out |= r.code == code
+        return out
+
+    def verdicts(self) -> tuple[npt.NDArray[np.bool_], npt.NDArray[np.bool_]]:
+        """Per part: does any check fail (margin < 1); is any check unknown (NaN)."""
+        fail = np.zeros(len(self.labels), dtype=bool)
+        unknown = np.zeros(len(self.labels), dtype=bool)
+        with np.errstate(invalid="ignore"):
+            for r in self.results.values():
+                fail |= r.margin < 1
+                unknown |= np.isnan(r.margin)
+        return fail, unknown
+
+    def verdict(self, i: int) -> Literal["pass", "fail", "unknown"]:
+        """Part i's verdict: fail if any check fails, else unknown if any is unknown."""
+        codes = {int(r.code[i]) for r in self.results.values()}
+        return STATUS_WORDS[min(codes)] if codes else "pass"
+
+    def rank_margin(self) -> Array:
+        """Per part, the smallest margin over the ranked checks (NaN-skipping)."""
+        ms = [r.margin for n, r in self.results.items() if n in self.ranked]
+        if not ms:
+            return np.full(len(self.labels), np.inf)
+        out = ms[0].copy()
+        for m in ms[1:]:
+            np.fmin(out, m, out=out)
+        return out
+
+    def limiting(self, i: int) -> str:
+        """The ranked check with part i's smallest margin ("-" when none)."""
+        best, name = np.inf, "-"
+        for n, r in self.results.items():
+            m = float(r.margin[i])
+            if n in self.ranked and m < best:
+                best, name = m, n
+        return name
+
+    def records(self, i: int) -> dict[str, dict[str, Any]]:
+        return {n: r.record(i) for n, r in self.results.items()}
+
+    def records_for(self, rows: npt.ArrayLike) -> list[dict[str, dict[str, Any]]]:
+        """``records(i)`` for each of ``rows``, built column by column (plain values)."""
+        idx = np.asarray(rows, dtype=np.intp)
+        cols = {}
+        for n, r in self.results.items():
+            cols[n] = ([STATUS_WORDS[c] for c in r.code[idx].tolist()],
+                       _plain(r.need[idx]), _plain(r.has[idx]), _plain(r.margin[idx]))
+        return [{n: {"status": st[k], "need": need[k], "has": has[k], "margin": m[k]}
+                 for n, (st, need, has, m) in cols.items()} for k in range(len(idx))]
+
+
+__all__ = ["STATUS_WORDS", "Array", "CheckResult", "CheckTable", "Coded", "Parts", "Status",
+           "at_least", "at_most", "merged", "result", "status_codes", "unknown_unless_failing",
+           "worse"]

@@ -1,0 +1,230 @@
+"""Checks of hard limits: output swing, input common-mode range, slew rate, output
+current, supply span and stock. Pure functions over part arrays (one element per part).
+
+Swing and common mode are measured as distances from the reference level: the part
+has ``(V+ - headroom+) - ref`` towards V+ and ``ref - (V- + headroom-)`` towards V-,
+and the stage needs ``Vp`` on each side (not scaled by the design margin: see
+picker.design.spec). The worse side is reported. Headrooms are the datasheet's
+"output (or input) within X V of the rail".
+"""
+
+from __future__ import annotations
+
+import math
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+from picker.checks import Check
+from picker.checks.core import CheckResult, Parts, result, worse
+from picker.design.spec import Explained
+from picker.quantities import fmt
+
+if TYPE_CHECKING:
+    from picker.design.spec import Spec
+
+
+def _v(x: float) -> str:
+    return fmt(x, "voltage", 4)
+
+
+# -- swing -------------------------------------------------------------------------------
+
+def _swing(p: Parts, s: Spec) -> CheckResult:
+    """Output must reach ref ± Vp,out: part's rail minus output headroom, per side."""
+    req = s.requirement
+    need = s.minimum.swing_pos_v - req.ref
+    up = result("swing", "voltage", ">=", need, (req.rail_pos - req.ref) - p["out_head_pos_v"],
+                note="toward V+")
+    down = result("swing", "voltage", ">=", req.ref - s.minimum.swing_neg_v,
+                  (req.ref - req.rail_neg) - p["out_head_neg_v"], note="toward V-")
+    return worse(up, down)
+
+
+def _swing_explain(s: Spec) -> list[Explained]:
+    req, mn = s.requirement, s.minimum
+    return [
+        Explained("swing", "output swing, each side of the reference", req.vout, "voltage",
+                  SWING.formula,
+                  f"{_v(mn.swing_pos_v)} - {_v(req.ref)} = {_v(mn.swing_pos_v - req.ref)}"),
+        Explained("swing_levels", "output levels to reach", None, "voltage", "ref ± Vp,out",
+                  f"{_v(mn.swing_neg_v)} .. {_v(mn.swing_pos_v)} (rails {req.rail_neg:g} V "
+                  f"/ {req.rail_pos:+g} V)"),
+    ]
+
+
+def _swing_detail(s: Spec, p: Parts, i: int) -> str:
+    req = s.requirement
+    hp, hn = float(p["out_head_pos_v"][i]), float(p["out_head_neg_v"][i])
+    return (f"toward V+ ({_v(req.rail_pos)} - {_v(hp)}) - {_v(req.ref)} = "
+            f"{_v(req.rail_pos - hp - req.ref)}; toward V- {_v(req.ref)} - ({_v(req.rail_neg)} "
+            f"+ {_v(hn)}) = {_v(req.ref - req.rail_neg - hn)}")
+
+
+SWING = Check(
+    name="swing", kind="voltage", reads=("out_head_pos_v", "out_head_neg_v"), run=_swing,
+    formula="each side (V+ - head+) - ref and ref - (V- + head-) >= need = Vp,out "
+            "(the output must reach ref ± Vp,out)",
+    explain=_swing_explain, detail=_swing_detail)
+
+
+# -- common mode -------------------------------------------------------------------------
+
+def _common_mode(p: Parts, s: Spec) -> CheckResult:
+    """Inputs reach ref ± |kp|·Vp,in; the part's common-mode range, per side."""
+    req = s.requirement
+    up = result("common_mode", "voltage", ">=", s.minimum.cm_high_v - req.ref,
+                (req.rail_pos - req.ref) - p["cm_head_pos_v"], note="toward V+")
+    down = result("common_mode", "voltage", ">=", req.ref - s.minimum.cm_low_v,
+                  (req.ref - req.rail_neg) - p["cm_head_neg_v"], note="toward V-")
+    return worse(up, down)
+
+
+def _cm_explain(s: Spec) -> list[Explained]:
+    req, st = s.requirement, s.stage
+    kp = st.cm_per_volt
+    return [Explained(
+        "common_mode", "input common-mode excursion, each side of the reference",
+        kp * req.vin, "voltage", COMMON_MODE.formula,
+        f"{kp:.4g} × {_v(req.vin)} = {_v(kp * req.vin)} (inputs at {_v(s.minimum.cm_low_v)} "
+        f".. {_v(s.minimum.cm_high_v)})")]
+
+
+def _cm_detail(s: Spec, p: Parts, i: int) -> str:
+    req = s.requirement
+    hp, hn = float(p["cm_head_pos_v"][i]), float(p["cm_head_neg_v"][i])
+    return (f"toward V+ ({_v(req.rail_pos)} - {_v(hp)}) - {_v(req.ref)} = "
+            f"{_v(req.rail_pos - hp - req.ref)}; toward V- {_v(req.ref)} - ({_v(req.rail_neg)} "
+            f"+ {_v(hn)}) = {_v(req.ref - req.rail_neg - hn)}")
+
+
+COMMON_MODE = Check(
+    name="common_mode", kind="voltage", reads=("cm_head_pos_v", "cm_head_neg_v"),
+    run=_common_mode,
+    formula="each side (V+ - cm head+) - ref and ref - (V- + cm head-) >= need = |kp|·Vp,in "
+            "(the inputs follow the non-inverting input)",
+    explain=_cm_explain, detail=_cm_detail)
+
+
+# -- slew --------------------------------------------------------------------------------
+
+def _slew(p: Parts, s: Spec) -> CheckResult:
+    """SR >= 2π·f·Vp,out·m: a sine's steepest slope (Vp·ω at the zero crossing)."""
+    return result("slew", "slew", ">=", s.minimum.slew_v_per_s, p["slew_v_per_s"])
+
+
+def _slew_explain(s: Spec) -> list[Explained]:
+    req = s.requirement
+    return [Explained(
+        "slew", "minimum slew rate", s.minimum.slew_v_per_s, "slew", SLEW.formula,
+        f"2π × {fmt(req.freq_hz, 'frequency', 4)} × {_v(req.vout)} × {req.margin:g} = "
+        f"{fmt(s.minimum.slew_v_per_s, 'slew', 4)}")]
+
+
+def _slew_detail(s: Spec, p: Parts, i: int) -> str:
+    return f"rated {fmt(float(p['slew_v_per_s'][i]), 'slew', 4)}"
+
+
+SLEW = Check(name="slew", kind="slew", reads=("slew_v_per_s",), run=_slew,
+             formula="SR >= 2π·f·Vp,out·m (a sine's steepest slope, with the margin)",
+             explain=_slew_explain, detail=_slew_detail)
+
+
+# -- output current ------------------------------------------------------------------------
+
+def _output_current(p: Parts, s: Spec) -> CheckResult:
+    """Iout >= m·Vp,out·(1/RL + (1 - vn/vo)/rf): load plus feedback network at the peak."""
+    need = s.minimum.iout_a
+    r = result("output_current", "current", ">=", need, p["iout_a"])
+    if need == 0:  # nothing to drive: no limit to meet, whatever the part
+        return CheckResult(r.name, r.kind, r.sense, r.need, r.has,
+                           np.full(len(p), math.inf), r.note)
+    return r
+
+
+def _current_explain(s: Spec) -> list[Explained]:
+    req, st = s.requirement, s.stage
+    g = st.amps_per_volt_out
+    r_eff = math.inf if g == 0 else 1 / g
+    return [Explained(
+        "output_current", "minimum output current", s.minimum.iout_a, "current",
+        OUTPUT_CURRENT.formula,
+        f"{req.margin:g} × {_v(req.vout)} / {fmt(r_eff, 'resistance', 4)} = "
+        f"{fmt(s.minimum.iout_a, 'current', 4)}")]
+
+
+def _current_detail(s: Spec, p: Parts, i: int) -> str:
+    return f"output current limit {fmt(float(p['iout_a'][i]), 'current', 4)}"
+
+
+OUTPUT_CURRENT = Check(
+    name="output_current", kind="current", reads=("iout_a",), run=_output_current,
+    needs=lambda s: ("iout_a",) if s.minimum.iout_a > 0 else (),
+    formula="Iout >= m·Vp,out/R_eff, 1/R_eff = 1/RL + (1 - vn/vo)/rf "
+            "(load plus feedback network at the peak)",
+    explain=_current_explain, detail=_current_detail)
+
+
+# -- supply ------------------------------------------------------------------------------
+
+def _supply(p: Parts, s: Spec) -> CheckResult:
+    """The rail span must lie inside the part's rated supply range."""
+    span = s.requirement.span
+    high = result("supply", "voltage", ">=", span, p["supply_max_v"], note="rated maximum")
+    low = result("supply", "voltage", "<=", span, p["supply_min_v"], note="rated minimum")
+    return worse(high, low)
+
+
+def _supply_explain(s: Spec) -> list[Explained]:
+    req = s.requirement
+    return [Explained("supply", "supply span to be rated for", req.span, "voltage",
+                      SUPPLY.formula,
+                      f"{_v(req.rail_pos)} - ({_v(req.rail_neg)}) = {_v(req.span)}")]
+
+
+def _supply_detail(s: Spec, p: Parts, i: int) -> str:
+    return (f"rated {_v(float(p['supply_min_v'][i]))} .. {_v(float(p['supply_max_v'][i]))}, "
+            f"span {_v(s.requirement.span)}")
+
+
+SUPPLY = Check(name="supply", kind="voltage", reads=("supply_min_v", "supply_max_v"),
+               run=_supply, formula="Vs,min <= V+ - V- <= Vs,max", explain=_supply_explain,
+               detail=_supply_detail, ranked=False)  # a rating, not headroom
+
+
+# -- stock -------------------------------------------------------------------------------
+
+def _stock(p: Parts, s: Spec) -> CheckResult:
+    """Channels on hand (packages x channels) against channels needed.
+
+    With the channel count unknown each package counts as one channel: enough packages
+    pass; too few are unknown, not failed.
+    """
+    qty, ch = p["qty"], p["channels"]
+    no_ch = np.isnan(ch)
+    lower = qty * np.where(no_ch, 1.0, ch)
+    has = np.where(no_ch & (lower < s.requirement.qty), np.nan, lower)
+    return result("stock", "count", ">=", float(s.requirement.qty), has)
+
+
+def _stock_explain(s: Spec) -> list[Explained]:
+    q = s.requirement.qty
+    return [Explained("stock", "channels needed", float(q), "count", STOCK.formula,
+                      f"{q} = {q}")]
+
+
+def _stock_detail(s: Spec, p: Parts, i: int) -> str:
+    qty, ch = float(p["qty"][i]), float(p["channels"][i])
+    return f"{_count(qty)} packages × {_count(ch)} channels"
+
+
+def _count(x: float) -> str:
+    return "-" if math.isnan(x) else str(int(x))
+
+
+STOCK = Check(name="stock", kind="count", reads=("qty", "channels"), run=_stock,
+              needs=lambda s: ("qty",), formula="packages × channels >= channels needed",
+              explain=_stock_explain, detail=_stock_detail, ranked=False)  # logistics
+
+
+__all__ = ["COMMON_MODE", "OUTPUT_CURRENT", "SLEW", "STOCK", "SUPPLY", "SWING"]
