@@ -11,9 +11,7 @@ offset (worst case over signs; ideal op-amp around the network, e.g. Franco, Des
 with Operational Amplifiers and Analog Integrated Circuits, 4th ed., ch. 5, from
 memory): Vos and its drift appear at the output times the noise gain NG; the bias
 current of the inverting input flows through rf; that of the non-inverting input
-through zp, times NG. With Ib± = Ib ± Ios/2:
-
-    Vout = NG·(|Vos| + |drift|·ΔT) + |Ib|·|rf - zp·NG| + Ios/2·(rf + zp·NG)
+through zp, times NG. With Ib± = Ib ± Ios/2 the worst case is ``OFFSET.formula``.
 
 noise (white densities at the output, added in power; same text, ch. 7):
 
