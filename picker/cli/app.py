@@ -7,6 +7,7 @@ does not pay for numpy, pandas, SQLAlchemy or matplotlib.
 from __future__ import annotations
 
 import importlib
+import importlib.util
 import sys
 from typing import Any
 

@@ -2,19 +2,10 @@
 
 from __future__ import annotations
 
-from pathlib import Path
-
 import click
 
 from picker.cli.params import db_option
-
-
-def demo_file() -> Path:
-    """The invented demo stockroom shipped in data/ (source tree) or with the package."""
-    here = Path(__file__).resolve().parents[2] / "data" / "demo_stockroom.csv"
-    if here.exists():
-        return here
-    return Path(__file__).resolve().parents[1] / "demo" / "demo_stockroom.csv"
+from picker.data import demo_stockroom
 
 
 @click.command()
@@ -26,10 +17,10 @@ def init(demo: bool, db: str | None) -> None:
 
     store = Store.create(db)
     if demo:
-        from picker.store.csvio import parse_csv, read_text
+        from picker.store.csvio import parse_csv
 
-        path = demo_file()
-        records = parse_csv(read_text(path), path.name)
+        demo_csv = demo_stockroom()
+        records = parse_csv(demo_csv.read_text(encoding="utf-8"), demo_csv.name)
         existing = set(store.labels())
         fresh = [r for r in records if r["label"] not in existing]
         report = store.import_records(fresh, update=False)

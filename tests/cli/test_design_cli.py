@@ -101,7 +101,7 @@ def test_why_shows_every_check_with_formula(db: str) -> None:
                  "stock"):
         assert re.search(rf"^\[(PASS|FAIL|UNKNOWN)\] {name}:", out, re.M), name
     assert out.count("formula:") == 7 and "Verdict: bip-gp-a" in out
-    # bip-gp-a has 0.5 V/µs in data/demo_stockroom.csv; the stage needs 0.785 V/µs (64%)
+    # bip-gp-a has 0.5 V/µs in picker/data/demo_stockroom.csv; the stage needs 0.785 V/µs (64%)
     assert "[FAIL] slew: needs >= 0.785 V/µs, has 0.5 V/µs (64%)" in out
 
 

@@ -15,7 +15,7 @@ from click.testing import CliRunner
 
 from picker.cli import cli
 
-DEMO = Path(__file__).resolve().parents[2] / "data" / "demo_stockroom.csv"
+DEMO = Path(__file__).resolve().parents[2] / "picker" / "data" / "demo_stockroom.csv"
 
 
 def run(*args: str, ok: bool = True):  # type: ignore[no-untyped-def]
@@ -38,7 +38,7 @@ def test_init_demo_loads_every_demo_row(demo_db: str) -> None:
 
 def test_list_shows_engineering_units(demo_db: str) -> None:
     out = run("parts", "list", "--db", demo_db, "--where", "label=bip-gp-a").stdout
-    # bip-gp-a holds 1 MHz, 0.5 V/µs, 200 V/mV = 106 dB in data/demo_stockroom.csv
+    # bip-gp-a holds 1 MHz, 0.5 V/µs, 200 V/mV = 106 dB in picker/data/demo_stockroom.csv
     assert "1 MHz" in out and "0.5 V/µs" in out and "106 dB" in out
     assert "SR [V/µs]" in out
 

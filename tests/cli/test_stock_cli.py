@@ -1,6 +1,6 @@
 """`picker stock ...` and `picker db backup/restore/upgrade` through click's CliRunner.
 
-Quantities are checked against data/demo_stockroom.csv read with the csv module;
+Quantities are checked against picker/data/demo_stockroom.csv read with the csv module;
 the bookkeeping (on hand = start + logged changes) is common practice, no source.
 """
 
@@ -19,7 +19,7 @@ from click.testing import CliRunner, Result
 from picker.cli import cli
 
 ROOT = Path(__file__).resolve().parents[2]
-DEMO = ROOT / "data" / "demo_stockroom.csv"
+DEMO = ROOT / "picker" / "data" / "demo_stockroom.csv"
 SECRET = "pw-S3cret-Zq7"
 
 
@@ -191,12 +191,11 @@ def test_password_is_never_printed_on_a_working_server(pg_url: str, tmp_path: Pa
     # scripts/test's server trusts loopback, so it accepts (and ignores) any password
     url = pg_url.replace("://picker@", f"://picker:{SECRET}@", 1)
     assert SECRET in url
-    from picker.cli.setup import demo_file
     from picker.store import Store
     from picker.store.csvio import parse_csv, read_text
 
     seed = Store.create(url)
-    seed.import_records(parse_csv(read_text(demo_file()), "demo"), update=False)
+    seed.import_records(parse_csv(read_text(DEMO), "demo"), update=False)
     seed.dispose()
     label, _ = a_part()
     outputs = [run(*cmd, "--db", url) for cmd in every_command(label, tmp_path)]

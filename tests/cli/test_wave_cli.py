@@ -15,7 +15,7 @@ from picker.design.requirement import load_design
 from tests.cli.clirun import fails, run
 from tests.design.macromodel_spice import Part, ac, f3db, tran
 
-DEMO = Path(__file__).parents[2] / "data" / "demo_stockroom.csv"
+DEMO = Path(__file__).parents[2] / "picker" / "data" / "demo_stockroom.csv"
 STAGE = ["--topology", "inverting", "--gain", "10", "--vout", "10V", "--freq", "20kHz",
          "--rails", "±15", "--load", "2k"]
 # a stage with its own resistors, so the ngspice netlist can be written from the file

@@ -15,7 +15,7 @@ from picker.design.rank import select
 from picker.design.requirement import Requirement
 from picker.design.topology import stage
 
-DEMO = Path(__file__).resolve().parents[2] / "data" / "demo_stockroom.csv"
+DEMO = Path(__file__).resolve().parents[2] / "picker" / "data" / "demo_stockroom.csv"
 
 
 def good_part(**changes: float) -> dict[str, float]:

@@ -128,7 +128,7 @@ def test_unknown_gbw_gives_no_prediction() -> None:
 def test_candidates_follow_the_ranking() -> None:
     from picker.design.rank import select
 
-    frame = pd.read_csv(Path(__file__).parents[2] / "data" / "demo_stockroom.csv",
+    frame = pd.read_csv(Path(__file__).parents[2] / "picker" / "data" / "demo_stockroom.csv",
                         index_col="label")
     req = Requirement(topology="inverting", gain=10, rail_pos=15, rail_neg=-15,
                       freq_hz=20e3, vout_pk=10, load_ohm=2e3)
