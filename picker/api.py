@@ -177,38 +177,83 @@ def design_network(req: Requirement, part: Mapping[str, Any] | None = None, *,
                   feedback_ohm=req.rf_ohm if req.rf_pinned else None)
 
 
-def waveform(req: Requirement, parts: Any, freq_hz: float | None = None) -> Any:
-    """Predicted output waveforms of the given parts (rows) in the stage as built.
+def part_frame(store: Any, part: str, columns: tuple[str, ...]) -> Any:
+    """One part's row (a DataFrame indexed by label) from a Store, or NotFound with the fix."""
+    from picker.errors import NotFound
+
+    frame = store.parts_frame(["label", *columns])
+    if part not in frame.index:
+        raise NotFound(f"PART: {part!r} is not in the stockroom; see `picker parts list`")
+    return frame.loc[[part]]
+
+
+def _need_known(known: bool, part: str, what: str) -> None:
+    from picker.errors import BadValue
+
+    if not known:
+        raise BadValue("PART", part, f"has no {what} recorded, so its output cannot be "
+                       f"predicted; add it with `picker parts edit {part} ...`")
+
+
+def waveform(req: Requirement, store: Any, part: str, freq_hz: float | None = None) -> Any:
+    """The predicted output of one part (by label) in the stage as built.
+
+    Parameters
+    ----------
+    req : Requirement
+    store : Store
+    part : str
+        The part's label.
+    freq_hz : float, optional
+        The sine's frequency, Hz (default: the stage's top frequency).
 
     Returns
     -------
     picker.design.waveform.Waves
-        ``summary(i)`` is ``picker wave PART --json`` (volts, THD as a ratio).
+        One row; ``summary(0)`` is ``picker wave PART --json`` (volts, THD as a ratio).
+        BadValue when the part lacks the GBW or slew rate the prediction needs.
     """
-    from picker.design.waveform import waveforms
+    from picker.design.waveform import COLUMNS, waveforms
 
-    return waveforms(built(req), parts, freq_hz)
+    waves = waveforms(built(req), part_frame(store, part, COLUMNS), freq_hz)
+    _need_known(bool(waves.known[0]), part, "gain-bandwidth product or slew rate")
+    return waves
 
 
-def candidates(req: Requirement, parts: Any, n: int = 4) -> Any:
-    """The predicted waveforms of the best ``n`` candidates in pick's order."""
+def candidates(req: Requirement, store: Any, n: int = 4) -> Any:
+    """The predicted waveforms of the best ``n`` candidates in pick's order.
+
+    Returns
+    -------
+    picker.design.waveform.Candidates
+        NotFound when the stockroom holds no parts.
+    """
     from picker.design.waveform import candidate_waveforms
+    from picker.errors import NotFound
 
-    return candidate_waveforms(built(req), parts, n)
+    frame = store.parts_frame()
+    if frame.empty:
+        raise NotFound("the stockroom has no parts; add some with `picker parts add` or "
+                       "`picker init --demo`")
+    return candidate_waveforms(built(req), frame, n)
 
 
-def response(req: Requirement, parts: Any, freq_hz: float | None = None) -> Any:
-    """Closed-loop frequency response of the given parts in the stage as built.
+def response(req: Requirement, store: Any, part: str, freq_hz: float | None = None) -> Any:
+    """Closed-loop frequency response of one part (by label) in the stage as built.
 
     Returns
     -------
     picker.design.response.Response
-        ``summary(i)`` is ``picker bode PART --json`` (Hz, dB, degrees).
+        One row; ``summary(0)`` is ``picker bode PART --json`` (Hz, dB, degrees).
     """
+    from picker.design.response import COLUMNS
     from picker.design.response import response as resp
 
-    return resp(built(req), parts, freq_hz)
+    out = resp(built(req), part_frame(store, part, COLUMNS), freq_hz)
+    _need_known(bool(out.known[0]), part, "gain-bandwidth product")
+    return out
 
 
-__all__ = ["PartReport", "built", "candidates", "design_network", "parts_for", "pick",
+__all__ = ["PartReport", "built", "candidates", "design_network", "part_frame", "parts_for",
+           "pick",
            "requirement", "response", "spec", "waveform", "why"]

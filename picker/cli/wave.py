@@ -11,24 +11,6 @@ from picker.cli.params import db_option, open_store
 from picker.cli.reqopts import build_requirement, requirement_options
 
 
-def _part_frame(db: str | None, label: str, columns: tuple[str, ...]) -> Any:
-    """One part's row (a DataFrame indexed by label), or NotFound naming the fix."""
-    from picker.errors import NotFound
-
-    frame = open_store(db).parts_frame(["label", *columns])
-    if label not in frame.index:
-        raise NotFound(f"PART: {label!r} is not in the stockroom; see `picker parts list`")
-    return frame.loc[[label]]
-
-
-def _need_known(known: bool, label: str, what: str) -> None:
-    from picker.errors import BadValue
-
-    if not known:
-        raise BadValue("PART", label, f"has no {what} recorded, so its output cannot be "
-                       f"predicted; add it with `picker parts edit {label} ...`")
-
-
 def _emit(summary: dict[str, Any], text: Callable[[], str], png: str | None, as_json: bool,
           cautions: list[str]) -> None:
     """One result as JSON or text (with the plot's path), then the cautions."""
@@ -90,11 +72,9 @@ def wave(part: str | None, stage: dict[str, Any], top: int | None, png: str | No
         _top(req, top, png, pixels, as_json, db)
         return
     assert part is not None
-    from picker.design.waveform import COLUMNS
     from picker.report.waves import wave_text
 
-    waves = api.waveform(req, _part_frame(db, part, COLUMNS))
-    _need_known(bool(waves.known[0]), part, "gain-bandwidth product or slew rate")
+    waves = api.waveform(req, open_store(db), part)
     if png:
         from picker.report.plots import save_png, wave_figure
 
@@ -105,15 +85,10 @@ def wave(part: str | None, stage: dict[str, Any], top: int | None, png: str | No
 def _top(req: Any, n: int, png: str | None, pixels: tuple[int, int], as_json: bool,
          db: str | None) -> None:
     from picker import api
-    from picker.errors import NotFound
     from picker.report.tables import to_json
     from picker.report.waves import candidates_json, candidates_text
 
-    frame = open_store(db).parts_frame()
-    if frame.empty:
-        raise NotFound("the stockroom has no parts; add some with `picker parts add` or "
-                       "`picker init --demo`")
-    cands = api.candidates(req, frame, n)
+    cands = api.candidates(req, open_store(db), n)
     if png:
         from picker.report.plots import grid_figure, save_png
 
@@ -148,14 +123,12 @@ def bode(part: str, stage: dict[str, Any], png: str | None, size: str | None, as
         picker bode bip-gp-a --topology non-inverting --gain 20 --vin 0.25V --freq 20kHz --rails ±12 --png bode.png
     """
     from picker import api
-    from picker.design.response import COLUMNS
     from picker.report.plots import BODE_SIZE
     from picker.report.waves import bode_text
 
     req = api.built(build_requirement(stage))
     pixels = _size(size, BODE_SIZE)
-    resp = api.response(req, _part_frame(db, part, COLUMNS))
-    _need_known(bool(resp.known[0]), part, "gain-bandwidth product")
+    resp = api.response(req, open_store(db), part)
     if png:
         from picker.report.plots import bode_figure, save_png
 
