@@ -32,11 +32,11 @@ from typing import Any
 import numpy as np
 import numpy.typing as npt
 
+from picker.circuit.opamp import Loop, closed_loop_pole_hz, loop, open_loop
 from picker.design.checks import Array, CheckResult, Parts, result, select_where
-from picker.design.circuit import Loop, closed_loop_pole_hz, loop, open_loop
 from picker.design.coded import Words
 from picker.design.spec import Spec
-from picker.design.topology import Stage
+from picker.stages import Stage
 
 BOLTZMANN = 1.380649e-23  # J/K, exact since the 2019 SI redefinition (CODATA 2018)
 

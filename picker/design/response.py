@@ -1,6 +1,6 @@
 """Closed-loop frequency response of a stage: gain (dB) and phase over frequency, per part.
 
-The exact closed-loop gain is picker.design.circuit's nodal solution written as a
+The exact closed-loop gain is picker.circuit.opamp's nodal solution written as a
 bilinear function of the open-loop gain, G = (n0 + n1·A)/(d0 + d1·A). With the single
 pole A(s) = ωu/(s + ωp), ωu = 2π·GBW, ωp = ωu/A0 (A0 unknown: ωp = 0), multiplying
 through by (s + ωp) gives a first-order transfer function
@@ -28,9 +28,9 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 import numpy.typing as npt
 
-from picker.design.circuit import loop
-from picker.design.topology import Stage, stage
+from picker.circuit.opamp import loop
 from picker.design.waveform import _labels
+from picker.stages import Stage, stage
 
 if TYPE_CHECKING:
     from picker.design.requirement import Requirement

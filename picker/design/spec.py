@@ -35,8 +35,8 @@ from functools import cached_property
 from typing import Any
 
 from picker.design.requirement import Requirement
-from picker.design.topology import Stage, stage
 from picker.quantities import Kind, fmt
+from picker.stages import Stage, stage
 
 DC_SHARE = 0.2  # of the op-amp's gain-error allowance, spent at DC
 RIN_SHARE = 0.2  # of the DC share, left to the input resistance (when it matters)

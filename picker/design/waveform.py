@@ -41,7 +41,7 @@ import numpy as np
 import numpy.typing as npt
 
 from picker.design.loopstate import LoopState, loop_state
-from picker.design.topology import Stage, stage
+from picker.stages import Stage, stage
 
 if TYPE_CHECKING:
     from picker.design.requirement import Requirement

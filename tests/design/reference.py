@@ -2,7 +2,7 @@
 
 A stage is written out element by element (source, source resistance, every network
 resistor, load, and the op-amp macromodel) as the unreduced circuit, independently of
-picker's own reduction (picker.design.topology); the same description becomes an
+picker's own reduction (picker.stages); the same description becomes an
 ngspice netlist and a sympy modified-nodal-analysis system.
 
 Macromodel in ngspice: a transconductance A0/Rx into Rx ‖ Cx (the single pole,
