@@ -53,6 +53,7 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
+from picker.errors import BadRequirement
 from picker.stages import Stage
 
 Array = npt.NDArray[np.float64]
@@ -133,7 +134,16 @@ def loop_state(
     rin_ohm: npt.ArrayLike,
     rout_ohm: npt.ArrayLike,
 ) -> LoopState:
-    """The one-state loop of ``stage`` for every part (NaN Rin = ∞, NaN Ro = 0, NaN A0 = ∞)."""
+    """The one-state loop of ``stage`` for every part (NaN Rin = ∞, NaN Ro = 0, NaN A0 = ∞).
+
+    Only a resistive stage reduces to one state; a stage with capacitors is refused
+    (BadRequirement) rather than predicted wrongly.
+    """
+    if stage.reactive:
+        raise BadRequirement(
+            f"the {stage.topology} stage has capacitors; the waveform prediction models "
+            "resistive stages only (one state, the op-amp's); use the frequency response "
+            "(picker bode) for this stage")
     a0 = np.asarray(aol, dtype=float)
     wu = 2 * np.pi * np.asarray(gbw_hz, dtype=float)
     with np.errstate(divide="ignore", invalid="ignore"):

@@ -6,11 +6,12 @@ one ``register`` line below, or a ``register`` call from outside.
 
 from picker.stages import difference, follower, inverting, non_inverting
 from picker.stages.base import Stage, StageType, parallel
-from picker.stages.registry import kind, kinds, register, stage
+from picker.stages.registry import kind, kinds, register, stage, unregister
 
 register(inverting.KIND)
 register(non_inverting.KIND)
 register(follower.KIND)
 register(difference.KIND)
 
-__all__ = ["Stage", "StageType", "kind", "kinds", "parallel", "register", "stage"]
+__all__ = ["Stage", "StageType", "kind", "kinds", "parallel", "register", "stage",
+           "unregister"]

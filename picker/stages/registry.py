@@ -19,6 +19,11 @@ def register(kind: StageType) -> StageType:
     return kind
 
 
+def unregister(name: str) -> None:
+    """Remove the stage type ``name`` (a type added for a while, e.g. in a test)."""
+    _KINDS.pop(name, None)
+
+
 def kinds() -> dict[str, StageType]:
     """Every registered stage type by topology name, in registration order."""
     return dict(_KINDS)
@@ -38,4 +43,4 @@ def stage(req: Requirement) -> Stage:
     return kind(req.topology).build(req)
 
 
-__all__ = ["kind", "kinds", "register", "stage"]
+__all__ = ["kind", "kinds", "register", "stage", "unregister"]
