@@ -52,7 +52,7 @@ def _det3(a: Sequence[Any], b: Sequence[Any], c: Sequence[Any]) -> Any:
 
 
 def _loop(st: Any, rin: float, ro: float) -> tuple[float, float, float, float]:
-    """n0, n1, d0, d1 of the nodal solution of one part (picker.design.circuit)."""
+    """n0, n1, d0, d1 of the nodal solution of one part (picker.circuit.opamp)."""
     gin = 0.0 if math.isnan(rin) or math.isinf(rin) else 1.0 / rin
     ro = 0.0 if math.isnan(ro) else ro
     gg = 0.0 if math.isinf(st.rg) else 1.0 / st.rg

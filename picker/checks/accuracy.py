@@ -31,10 +31,10 @@ import numpy as np
 
 from picker.checks import Check
 from picker.checks.core import Array, CheckResult, Parts, result
-from picker.design.circuit import Loop, closed_loop_pole_hz, loop, open_loop
+from picker.circuit.opamp import Loop, closed_loop_pole_hz, loop, open_loop
 from picker.design.spec import Explained, rin_matters
-from picker.design.topology import Stage
 from picker.quantities import fmt
+from picker.stages import Stage
 
 if TYPE_CHECKING:
     from picker.design.spec import Spec

@@ -1,8 +1,8 @@
 """The design core: stage requirement -> minimum specifications -> checks -> ranking.
 
 - requirement: the stage as the user states it (options or a TOML design file);
-- topology: the four stages reduced to one circuit around the op-amp;
-- circuit: exact closed-loop gain with the op-amp's linear macromodel;
+- (the stages and their circuits live in picker.stages; the solver and the op-amp's
+  exact closed-loop gain in picker.circuit)
 - spec: the minimum specifications and how the gain-error budget is split;
 - checks, limits, accuracy: every part checked, vectorised over the parts table;
 - rank, misses: ranking, rejections explained, nearest misses.

@@ -1,6 +1,6 @@
 """The closed loop of a stage reduced to one state: the op-amp's internal voltage.
 
-Macromodel (the same as picker.design.circuit, written in the time domain): an
+Macromodel (the same as picker.circuit.opamp, written in the time domain): an
 internal node ``x`` driven by a single-pole gain stage,
 
     dx/dt = ωu·vd − ωp·x,       ωu = 2π·GBW,  ωp = ωu/A0,   vd = vp − vn
@@ -12,7 +12,7 @@ G. R. Boyle, B. M. Cohn, D. O. Pederson, J. E. Solomon, "Macromodeling of integr
 circuit operational amplifiers", IEEE J. Solid-State Circuits SC-9(6), 1974, from
 memory; there the limit is the current into the compensation capacitor).
 
-The rest of the stage is resistive (picker.design.topology: ``kp``/``zp`` at the
+The rest of the stage is resistive (picker.stages: ``kp``/``zp`` at the
 non-inverting input, ``kg``/``rg`` and ``rf`` at the inverting input, ``RL`` at the
 output; signals from the reference level, input ``u``), so for a given output voltage
 ``vo`` and input ``u`` the input nodes follow from two node equations (each scaled by a
@@ -42,7 +42,7 @@ Current-limited output (io = s·Iout, s = ±1): vo = (s·Iout + J·u)/Y and
     dx/dt = −ωp·x + ωu·(e − J/(D·Y))·u − s·ωu·Iout/(D·Y).
 
 λ is the closed loop's single pole, ωp·(1 + A0·β); β·A0 is the loop gain (checked in
-tests/design/test_waveform.py against picker.design.circuit's exact nodal solution and
+tests/design/test_waveform.py against picker.circuit.opamp's exact nodal solution and
 against ngspice). Every quantity is an array with one element per part.
 """
 
@@ -53,7 +53,8 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
-from picker.design.topology import Stage
+from picker.errors import BadRequirement
+from picker.stages import Stage
 
 Array = npt.NDArray[np.float64]
 
@@ -133,7 +134,16 @@ def loop_state(
     rin_ohm: npt.ArrayLike,
     rout_ohm: npt.ArrayLike,
 ) -> LoopState:
-    """The one-state loop of ``stage`` for every part (NaN Rin = ∞, NaN Ro = 0, NaN A0 = ∞)."""
+    """The one-state loop of ``stage`` for every part (NaN Rin = ∞, NaN Ro = 0, NaN A0 = ∞).
+
+    Only a resistive stage reduces to one state; a stage with capacitors is refused
+    (BadRequirement) rather than predicted wrongly.
+    """
+    if stage.reactive:
+        raise BadRequirement(
+            f"the {stage.topology} stage has capacitors; the waveform prediction models "
+            "resistive stages only (one state, the op-amp's); use the frequency response "
+            "(picker bode) for this stage")
     a0 = np.asarray(aol, dtype=float)
     wu = 2 * np.pi * np.asarray(gbw_hz, dtype=float)
     with np.errstate(divide="ignore", invalid="ignore"):

@@ -6,16 +6,11 @@ resistance in series with the input leg (each half of a balanced source for the
 difference stage). Every function takes arrays and broadcasts: the search in
 picker.design.network evaluates all pairs at once.
 
-Ideal-op-amp gains (Thévenin reduction of the dividers; any circuits text, e.g.
-Horowitz and Hill, The Art of Electronics, 3rd ed., ch. 4, from memory):
-
-- inverting: ``G = rf/(rs + rg)``; noise gain ``1 + G``;
-- non-inverting: ``G = 1 + rf/rg``;
-- difference (balanced drive ±v/2): ``G = kp·(1 + r2/(rs + r1)) + r2/(2(rs + r1))`` with
-  ``kp = r4/(2(rs + r3 + r4))``; with matched ratios (r3 = r1, r4 = r2) ``G = r2/(rs + r1)``.
-
-A pair is (``a``, ``b``) = (feedback, leg): (rf, rg) for the inverting and non-inverting
-stages, (r2, r1) for the difference stage (then r4 = r2 and r3 = r1).
+The ideal-op-amp gain of a network, the names a designer's pair fills and the
+resistors that set the gain belong to each stage type (picker.stages: ``ideal_gain``,
+``pair_names``, ``gain_names``). A pair is (``a``, ``b``) = (feedback, leg): (rf, rg)
+for the inverting and non-inverting stages, (r2, r1) for the difference stage (then
+r4 = r2 and r3 = r1).
 """
 
 from __future__ import annotations
@@ -29,6 +24,7 @@ import numpy as np
 import numpy.typing as npt
 
 from picker.design.requirement import Topology
+from picker.stages import kind
 
 Array = npt.NDArray[np.float64]
 
@@ -46,43 +42,10 @@ NOISE_SHARE = 0.5  # of --noise-max: resistor thermal noise and current noise
 RIN_SHARE = 0.1  # of --gain-error: the part's input resistance loading the network
 RATIO_SHARE = 0.25  # of --gain-error: the nominal ratio error of standard values
 
-# Which names a pair fills, per topology: (feedback, leg).
-PAIR_NAMES: dict[str, tuple[str, str]] = {
-    "inverting": ("rf", "rg"),
-    "non-inverting": ("rf", "rg"),
-    "difference": ("r2", "r1"),
-}
-# The resistors that set the gain (tolerance analysis varies these).
-GAIN_NAMES: dict[str, tuple[str, ...]] = {
-    "inverting": ("rf", "rg"),
-    "non-inverting": ("rf", "rg"),
-    "difference": ("r1", "r2", "r3", "r4"),
-    "follower": (),
-}
-
-
-def ideal_gain(topology: Topology, rs: float, res: Mapping[str, npt.ArrayLike]) -> Array:
-    """Signal-gain magnitude with an ideal op-amp (formulas in the module docstring)."""
-    if topology == "follower":
-        return np.asarray(1.0)
-    if topology == "inverting":
-        return np.asarray(res["rf"], float) / (rs + np.asarray(res["rg"], float))
-    if topology == "non-inverting":
-        rg = np.asarray(res["rg"], float)
-        with np.errstate(divide="ignore"):
-            return 1.0 + np.asarray(res["rf"], float) / rg
-    r1, r2, r3, r4 = (np.asarray(res[k], float) for k in ("r1", "r2", "r3", "r4"))
-    kp = 0.5 * r4 / (rs + r3 + r4)
-    return kp * (1 + r2 / (rs + r1)) + 0.5 * r2 / (rs + r1)  # type: ignore[no-any-return]
-
-
 def pair_resistors(topology: Topology, a: npt.ArrayLike, b: npt.ArrayLike) -> dict[str, Any]:
-    """The named network of a pair (difference: matched, r3 = r1 and r4 = r2)."""
-    fa, fb = PAIR_NAMES[topology]
-    out = {fa: a, fb: b}
-    if topology == "difference":
-        out.update(r3=b, r4=a)
-    return out
+    """The named network of a pair (the stage type's ``pair_network``; difference:
+    matched, r3 = r1 and r4 = r2)."""
+    return kind(topology).pair_network(a, b)
 
 
 @dataclass(frozen=True)
@@ -205,6 +168,6 @@ class PartData:
                    num("rout_ohm"))
 
 
-__all__ = ["GAIN_NAMES", "K_B", "MIN_LOAD_OHM", "NOISE_SHARE", "OFFSET_SHARE", "PAIR_NAMES",
-           "PairModel", "PartData", "RATIO_SHARE", "RIN_SHARE", "WINDOW_OHM", "bias_offset",
-           "ideal_gain", "noise_bandwidth_hz", "pair_model", "pair_resistors"]
+__all__ = ["K_B", "MIN_LOAD_OHM", "NOISE_SHARE", "OFFSET_SHARE", "PairModel", "PartData",
+           "RATIO_SHARE", "RIN_SHARE", "WINDOW_OHM", "bias_offset", "noise_bandwidth_hz",
+           "pair_model", "pair_resistors"]

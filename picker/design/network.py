@@ -23,6 +23,7 @@ from typing import Any
 import numpy as np
 import numpy.typing as npt
 
+from picker.circuit.opamp import closed_loop_gain
 from picker.design import netmodel as nm
 from picker.design import series as es
 from picker.design.netlimits import Context, check_pairs, conflict_message, describe
@@ -38,6 +39,7 @@ from picker.design.tolerance import (
 )
 from picker.errors import BadRequirement
 from picker.quantities import fmt
+from picker.stages import kind, stage
 
 Array = npt.NDArray[np.float64]
 
@@ -125,6 +127,13 @@ def design_network(req: Requirement, part: Mapping[str, Any] | nm.PartData | Non
     return _design_pair(req, ctx, series, tolerance, seed, feedback_ohm)
 
 
+def _pair_names(t: str) -> tuple[str, str]:
+    """(feedback, leg): the names the stage type's designer pair fills."""
+    names = kind(t).pair_names
+    assert names is not None, f"the {t} stage has no pair to design"
+    return names
+
+
 def _design_pair(req: Requirement, ctx: Context, series: es.SeriesName, tol: float,
                  seed: int, feedback_ohm: float | None) -> Network:
     t, gain = req.topology, req.gain
@@ -139,7 +148,7 @@ def _design_pair(req: Requirement, ctx: Context, series: es.SeriesName, tol: flo
         raise BadRequirement(conflict_message(ctx, series, checks))
     err = np.where(ok, np.abs(model.gain / gain - 1), np.inf)
     i, j = np.unravel_index(_first_best(err), err.shape)
-    fa, fb = nm.PAIR_NAMES[t]
+    fa, fb = _pair_names(t)
     best = (float(fv[i]), Slot.single(fb, float(v[j])))
     best_err = float(err[i, j])
     notes: list[str] = []
@@ -245,7 +254,7 @@ def _best_combo(ctx: Context, fv: Array, v: Array, share: float
         r, c = (int(x) for x in np.unravel_index(_first_best(err), err.shape))
     idx = cand[r, c]
     how: How = "series" if kind[idx] == 0 else "parallel"
-    fb = nm.PAIR_NAMES[t][1]
+    fb = _pair_names(t)[1]
     slot = Slot(fb, float(legs[r, c]), (float(v[ii[idx]]), float(v[jj[idx]])), how)
     return float(fv[r]), slot, float(err[r, c])
 
@@ -324,7 +333,7 @@ def _given(req: Requirement, series: es.SeriesName) -> tuple[list[Slot], list[st
 def _finish(req: Requirement, ctx: Context, series: es.SeriesName, tol: float,
             slots: list[Slot], net: dict[str, float], notes: list[str], seed: int) -> Network:
     t, rs = req.topology, req.source_ohm
-    gain = float(nm.ideal_gain(t, rs, net)) if t != "follower" else 1.0
+    gain = float(kind(t).ideal_gain(rs, net))
     wc = worst_case(t, rs, net, tol)
     p99 = p99_error(monte_carlo(t, rs, slots, tol, seed=seed), req.gain) if slots else abs(
         gain / req.gain - 1)
@@ -359,11 +368,8 @@ def _tolerance_notes(req: Requirement, n: Network) -> list[str]:
 def exact_gain(req: Requirement, network: Mapping[str, float],
                part: Mapping[str, Any] | nm.PartData) -> tuple[complex, complex] | None:
     """The stage's exact closed-loop gain (at DC, at the top frequency) with this network
-    around the part's macromodel (picker.design.circuit; unknown Rin = infinite, unknown
+    around the part's macromodel (picker.circuit.opamp; unknown Rin = infinite, unknown
     Ro = 0). None when the part's A0 or GBW is unknown."""
-    from picker.design.circuit import closed_loop_gain
-    from picker.design.topology import stage
-
     p = part if isinstance(part, nm.PartData) else nm.PartData.from_row(part)
     if p.aol_v_per_v is None or p.gbw_hz is None:
         return None

@@ -20,7 +20,7 @@ Explicit resistor networks (``network``; values in Ω, or ``inf`` for an open le
   ``r3`` positive input -> non-inverting input, ``r4`` non-inverting input -> ref.
 
 Without a network the stage uses an ideal-ratio network built from ``rf`` (see
-picker.design.topology).
+picker.stages).
 """
 
 from __future__ import annotations
@@ -34,6 +34,7 @@ from typing import Any, Literal, get_args
 
 from picker.errors import BadRequirement, BadValue
 from picker.quantities import as_number, parse, parse_amplitude, parse_rails
+from picker.stages import kind, kinds
 
 Topology = Literal["inverting", "non-inverting", "follower", "difference"]
 TOPOLOGIES: tuple[Topology, ...] = get_args(Topology)
@@ -42,13 +43,6 @@ TOPOLOGIES: tuple[Topology, ...] = get_args(Topology)
 ELV_DC_V = 60.0
 #: The temperature offset drift is specified from.
 T_REF_C = 25.0
-
-NETWORK_NAMES: dict[str, tuple[str, ...]] = {
-    "inverting": ("rf", "rg", "rp"),
-    "non-inverting": ("rf", "rg", "rp"),
-    "follower": ("rf", "rp"),
-    "difference": ("r1", "r2", "r3", "r4"),
-}
 
 # requirement key (as written, dashes) -> dataclass field
 KEYS: dict[str, str] = {
@@ -177,9 +171,9 @@ class Requirement:
     def validate(self, label: Label) -> None:
         """Raise BadRequirement (one line naming the option) if no stage can do this."""
         t = self.topology
-        if t not in TOPOLOGIES:
+        if t not in kinds():
             raise BadRequirement(f"{label('topology')}: {t!r} is not a topology; use one of "
-                                 + ", ".join(TOPOLOGIES))
+                                 + ", ".join(kinds()))
         if not (math.isfinite(self.gain) and self.gain > 0):
             raise BadRequirement(f"{label('gain')}: {self.gain!r} is not a gain above zero")
         if t == "follower" and not math.isclose(self.gain, 1.0, rel_tol=1e-9):
@@ -237,7 +231,7 @@ class Requirement:
         if self.temp_min_c > self.temp_max_c:
             raise BadRequirement(f"{label('temp')}: write the range low..high, e.g. -40..85C")
         if self.network is not None:
-            allowed = NETWORK_NAMES[t]
+            allowed = kind(t).network_names
             for name, value in self.network.items():
                 if name not in allowed:
                     raise BadRequirement(
@@ -246,9 +240,7 @@ class Requirement:
                 if not value > 0 and not (name in ("rf", "rp") and value == 0):
                     raise BadRequirement(f"{label('network')}: {name} = {value!r} Ω; "
                                          "resistors must be above 0 Ω")
-            need = {"inverting": ("rf", "rg"), "non-inverting": ("rf", "rg"),
-                    "difference": ("r1", "r2", "r3", "r4"), "follower": ()}[t]
-            missing = [n for n in need if n not in self.network]
+            missing = [n for n in kind(t).required if n not in self.network]
             if missing:
                 raise BadRequirement(f"{label('network')}: the {t} stage needs "
                                      f"{', '.join(missing)} as well")
@@ -344,8 +336,8 @@ def _build(values: Mapping[str, tuple[Any, str]]) -> Requirement:
             t = str(raw).strip().lower().replace("_", "-")
             t = {"noninverting": "non-inverting", "non-inv": "non-inverting",
                  "inv": "inverting", "buffer": "follower", "diff": "difference"}.get(t, t)
-            if t not in TOPOLOGIES:
-                raise BadValue(name, raw, "is not a topology; use one of " + ", ".join(TOPOLOGIES))
+            if t not in kinds():
+                raise BadValue(name, raw, "is not a topology; use one of " + ", ".join(kinds()))
             kw["topology"] = t
         elif key == "gain":
             kw["gain"] = parse(raw, "gain", name, allow_zero=False)
@@ -392,7 +384,7 @@ def _build(values: Mapping[str, tuple[Any, str]]) -> Requirement:
         raise BadRequirement(f"{lab('rails')}: missing; give the supply rails, e.g. --rails ±12 "
                              "or --rails +5/0")
     if "topology" not in kw:
-        raise BadRequirement(f"{lab('topology')}: missing; use one of " + ", ".join(TOPOLOGIES))
+        raise BadRequirement(f"{lab('topology')}: missing; use one of " + ", ".join(kinds()))
     if "gain" not in kw:
         if kw["topology"] != "follower":
             raise BadRequirement(f"{lab('gain')}: missing; give the signal gain, e.g. --gain 10 "
@@ -451,6 +443,6 @@ def load_design(path: str | Path) -> Requirement:
 
 
 __all__ = [
-    "ELV_DC_V", "KEYS", "NETWORK_NAMES", "TOPOLOGIES", "Requirement", "Topology",
+    "ELV_DC_V", "KEYS", "TOPOLOGIES", "Requirement", "Topology",
     "load_design", "read_design", "requirement_from",
 ]

@@ -1,6 +1,6 @@
 """Closed-loop frequency response of a stage: gain (dB) and phase over frequency, per part.
 
-The exact closed-loop gain is picker.design.circuit's nodal solution written as a
+The exact closed-loop gain is picker.circuit.opamp's nodal solution written as a
 bilinear function of the open-loop gain, G = (n0 + n1·A)/(d0 + d1·A). With the single
 pole A(s) = ωu/(s + ωp), ωu = 2π·GBW, ωp = ωu/A0 (A0 unknown: ωp = 0), multiplying
 through by (s + ωp) gives a first-order transfer function
@@ -16,6 +16,12 @@ The -3 dB frequency is where |G(jω)|² = |G(0)|²/2:
 (no -3 dB point, reported as infinity, when the denominator is not positive: the
 network's own feed-through keeps the gain above it). Every quantity is an array with
 one element per part; the sweep is parts × frequencies.
+
+A stage with capacitors (``Stage.reactive``) is not first order: its loop coefficients
+depend on frequency, so the solver is run at every frequency of the sweep,
+``G = (n0/A + n1)/(d0/A + d1)`` with ``1/A = 1/A0 + j·f/GBW`` (no infinity for an
+unknown A0), and the -3 dB frequency is the first crossing of ``|G(0)|/√2`` on a fine
+log grid, refined by bisection (relative width 1e-9).
 """
 
 from __future__ import annotations
@@ -28,9 +34,10 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 import numpy.typing as npt
 
-from picker.design.circuit import loop
-from picker.design.topology import Stage, stage
+from picker.circuit.opamp import Loop, loop
 from picker.design.waveform import _labels
+from picker.errors import BadRequirement
+from picker.stages import Stage, stage
 
 if TYPE_CHECKING:
     from picker.design.requirement import Requirement
@@ -71,7 +78,14 @@ class Transfer:
 
 def transfer(st: Stage, aol: npt.ArrayLike, gbw_hz: npt.ArrayLike, rin_ohm: npt.ArrayLike,
              rout_ohm: npt.ArrayLike) -> Transfer:
-    """The first-order closed-loop transfer function of ``st`` for every part."""
+    """The first-order closed-loop transfer function of ``st`` for every part.
+
+    Exact for a resistive stage (its loop coefficients, from the solver at DC, do not
+    depend on frequency); a reactive stage is refused.
+    """
+    if st.reactive:
+        raise BadRequirement(f"the {st.topology} stage has capacitors: its response is not "
+                             "first order; use simulate() or response() for its sweep")
     a0 = np.asarray(aol, dtype=float)
     wu = 2 * np.pi * np.asarray(gbw_hz, dtype=float)
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -122,6 +136,51 @@ def sweep(freq_hz: float, f3db: Array, points_per_decade: int = 50) -> Array:
     return np.logspace(lo, hi, (hi - lo) * points_per_decade + 1)
 
 
+def _inverse_a(a0: Array, gbw: Array, f: float) -> npt.NDArray[np.complex128]:
+    """1/A(j2πf) = 1/A0 + j·f/GBW, 1/A0 = 0 for an unknown A0."""
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.fmax(1.0 / a0, 0.0) + 1j * f / gbw  # type: ignore[no-any-return]
+
+
+def _solved(lp: Loop, inv_a: npt.NDArray[np.complex128]) -> npt.NDArray[np.complex128]:
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return (lp.n0 * inv_a + lp.n1) / (lp.d0 * inv_a + lp.d1)  # type: ignore[no-any-return]
+
+
+def solved_gain(st: Stage, cols: Mapping[str, Array], gbw: Array,
+                freqs: npt.ArrayLike) -> npt.NDArray[np.complex128]:
+    """G(j2πf) by the solver at every frequency, shape parts × frequencies."""
+    fs = np.atleast_1d(np.asarray(freqs, dtype=float))
+    out = np.empty((len(gbw), len(fs)), dtype=complex)
+    for k, f in enumerate(fs):
+        lp = loop(st, cols["rin_ohm"], cols["rout_ohm"], freq_hz=float(f))
+        out[:, k] = _solved(lp, _inverse_a(cols["aol_v_per_v"], gbw, float(f)))
+    return out
+
+
+def _f3db_solved(st: Stage, cols: Mapping[str, Array], gbw: Array, freq_hz: float,
+                 dc: npt.NDArray[np.complex128]) -> Array:
+    """The first frequency where |G| falls to |G(0)|/√2, per part (inf: none found)."""
+    hi_dec = math.ceil(math.log10(max(float(np.max(gbw)), freq_hz))) + 3
+    grid = np.logspace(math.floor(math.log10(freq_hz)) - 4, hi_dec, (hi_dec + 4) * 20 + 1)
+    target = np.abs(dc) / math.sqrt(2)
+    below = np.abs(solved_gain(st, cols, gbw, grid)) < target[:, None]
+    out = np.full(len(gbw), np.inf)
+    for i in np.flatnonzero(below.any(axis=1)):
+        k = int(np.argmax(below[i]))
+        if k == 0:
+            out[i] = grid[0]
+            continue
+        one = {c: v[i:i + 1] for c, v in cols.items()}
+        lo, hi = grid[k - 1], grid[k]
+        while hi / lo - 1 > 1e-9:
+            mid = math.sqrt(lo * hi)
+            g = abs(solved_gain(st, one, gbw[i:i + 1], [mid])[0, 0])
+            lo, hi = (mid, hi) if g >= target[i] else (lo, mid)
+        out[i] = math.sqrt(lo * hi)
+    return out
+
+
 def simulate(st: Stage, parts: Mapping[str, Any], freq_hz: float,
              labels: tuple[str, ...] | None = None, freqs: npt.ArrayLike | None = None) -> Response:
     """The closed-loop response of ``st`` for every part in ``parts`` (columns of COLUMNS)."""
@@ -131,16 +190,24 @@ def simulate(st: Stage, parts: Mapping[str, Any], freq_hz: float,
     cols = {c: _column(parts, c, n) for c in COLUMNS}
     known = np.isfinite(cols["gbw_hz"]) & (cols["gbw_hz"] > 0)
     gbw = np.where(known, cols["gbw_hz"], 1.0)
-    tf = transfer(st, cols["aol_v_per_v"], gbw, cols["rin_ohm"], cols["rout_ohm"])
     nan = np.where(known, 0.0, np.nan)
-    f3 = tf.f3db + nan
-    axis = sweep(freq_hz, f3) if freqs is None else np.asarray(freqs, dtype=float)
-    g = tf.gain(axis)
-    at_f = tf.gain([freq_hz])[:, 0]
+    if st.reactive:  # not first order: the solver at every frequency
+        dc = solved_gain(st, cols, gbw, [0.0])[:, 0]
+        f3 = _f3db_solved(st, cols, gbw, freq_hz, dc) + nan
+        axis = sweep(freq_hz, f3) if freqs is None else np.asarray(freqs, dtype=float)
+        g = solved_gain(st, cols, gbw, axis)
+        at_f = solved_gain(st, cols, gbw, [freq_hz])[:, 0]
+    else:
+        tf = transfer(st, cols["aol_v_per_v"], gbw, cols["rin_ohm"], cols["rout_ohm"])
+        dc = tf.dc.astype(complex)
+        f3 = tf.f3db + nan
+        axis = sweep(freq_hz, f3) if freqs is None else np.asarray(freqs, dtype=float)
+        g = tf.gain(axis)
+        at_f = tf.gain([freq_hz])[:, 0]
     with np.errstate(divide="ignore"):
         db = 20 * np.log10(np.abs(g)) + nan[:, None]
         at_db = 20 * np.log10(np.abs(at_f)) + nan
-        dc_db = 20 * np.log10(np.abs(tf.dc)) + nan
+        dc_db = 20 * np.log10(np.abs(dc)) + nan
     phase = np.degrees(np.unwrap(np.angle(g), axis=1)) + nan[:, None]
     return Response(labels=labels, freq_hz=freq_hz, freqs=axis, gain_db=db, phase_deg=phase,
                     f3db=f3, dc_gain_db=dc_db, gain_at_f=at_db,
@@ -153,4 +220,5 @@ def response(req: Requirement, parts: Any, freq_hz: float | None = None,
     return simulate(stage(req), parts, freq_hz or req.freq_hz, freqs=freqs)
 
 
-__all__ = ["COLUMNS", "Response", "Transfer", "response", "simulate", "sweep", "transfer"]
+__all__ = ["COLUMNS", "Response", "Transfer", "response", "simulate", "solved_gain", "sweep",
+           "transfer"]

@@ -20,7 +20,7 @@ minimums (A0, Rin, GBW, with Ro = 0) lands exactly on the budget at the top freq
   their minimums. Typical parts have far more A0 and Rin than these minimums and get
   by with somewhat less GBW; the exact check of each part decides.
 
-With Ro = 0 the exact gain (picker.design.circuit) is G = G_net·T/(1 + T) with loop
+With Ro = 0 the exact gain (picker.circuit.opamp) is G = G_net·T/(1 + T) with loop
 gain T = A(s)/NG_eff, NG_eff = (1 + rf/(rg‖(Rin + zp)))·(1 + zp/Rin) (the return ratio
 of the op-amp's source; Bode's asymptotic-gain view, e.g. Sedra and Smith,
 Microelectronic Circuits, 7th ed., ch. 11, from memory). Hence, with L = A0/NG_eff:
@@ -35,8 +35,8 @@ from functools import cached_property
 from typing import Any
 
 from picker.design.requirement import Requirement
-from picker.design.topology import Stage, stage
 from picker.quantities import Kind, fmt
+from picker.stages import Stage, stage
 
 DC_SHARE = 0.2  # of the op-amp's gain-error allowance, spent at DC
 RIN_SHARE = 0.2  # of the DC share, left to the input resistance (when it matters)

@@ -1,6 +1,6 @@
 """How far resistor tolerance can move a stage's gain: worst-case corners and Monte Carlo.
 
-Worst case: every gain formula of picker.design.netmodel is monotonic in each
+Worst case: every stage type's ideal gain (picker.stages) is monotonic in each
 resistor (rf, r2, r4 raise the gain; rg, r1, r3 lower it: each appears once in a
 numerator or once in a denominator of a positive ratio), so its extremes over the box
 R·(1 ± t) lie at corners; all 2^n corners are evaluated at once.
@@ -21,8 +21,8 @@ from typing import Literal
 import numpy as np
 import numpy.typing as npt
 
-from picker.design.netmodel import GAIN_NAMES, ideal_gain
 from picker.design.requirement import Topology
+from picker.stages import kind
 
 Array = npt.NDArray[np.float64]
 How = Literal["single", "series", "parallel"]
@@ -63,12 +63,12 @@ def worst_case(topology: Topology, rs: float, resistors: Mapping[str, float],
     both move together, and its extremes are those two corners, so positions are
     varied as single resistors here.
     """
-    names = [n for n in GAIN_NAMES[topology] if n in resistors]
+    names = [n for n in kind(topology).gain_names if n in resistors]
     if not names:
         return 1.0, 1.0
     signs = np.array(list(itertools.product((-1.0, 1.0), repeat=len(names))))
     corner = {n: resistors[n] * (1 + tol * signs[:, i]) for i, n in enumerate(names)}
-    g = np.broadcast_to(ideal_gain(topology, rs, {**resistors, **corner}), (len(signs),))
+    g = np.broadcast_to(kind(topology).ideal_gain(rs, {**resistors, **corner}), (len(signs),))
     return float(g.min()), float(g.max())
 
 
@@ -78,14 +78,14 @@ def monte_carlo(topology: Topology, rs: float, slots: Sequence[Slot], tol: float
     rng = np.random.default_rng(seed)
     drawn: dict[str, npt.ArrayLike] = {}
     for s in slots:
-        if s.name not in GAIN_NAMES[topology]:
+        if s.name not in kind(topology).gain_names:
             drawn[s.name] = s.ohms
             continue
         parts = [p * rng.uniform(1 - tol, 1 + tol, n) for p in s.parts]
         drawn[s.name] = combine(parts, s.how) if len(parts) > 1 else parts[0]
     if topology == "follower":
         return np.ones(n)
-    return np.broadcast_to(ideal_gain(topology, rs, drawn), (n,)).copy()
+    return np.broadcast_to(kind(topology).ideal_gain(rs, drawn), (n,)).copy()
 
 
 def p99_error(gains: npt.ArrayLike, target: float) -> float:

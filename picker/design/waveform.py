@@ -41,7 +41,7 @@ import numpy as np
 import numpy.typing as npt
 
 from picker.design.loopstate import LoopState, loop_state
-from picker.design.topology import Stage, stage
+from picker.stages import Stage, stage
 
 if TYPE_CHECKING:
     from picker.design.requirement import Requirement
@@ -124,7 +124,7 @@ def _phi(z: Array) -> tuple[Array, Array]:
 
 
 def _labels(parts: Any, n: int) -> tuple[str, ...]:
-    """Row labels: a DataFrame's index, picker.design.checks.Parts labels, or 0..n-1."""
+    """Row labels: a DataFrame's index, picker.checks.Parts labels, or 0..n-1."""
     for attr in ("labels", "index"):
         got = getattr(parts, attr, None)
         if got is not None and not callable(got):

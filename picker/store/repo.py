@@ -129,7 +129,7 @@ class Store:
     ) -> tuple[Any, dict[str, Any]]:
         """Labels and numeric columns as float64 numpy arrays (NaN = unknown), by label.
 
-        The lean read for checking parts (no pandas): picker.design.checks.Parts
+        The lean read for checking parts (no pandas): picker.checks.Parts
         .from_columns takes the result as it is.
         """
         bad = [c for c in columns if c not in NUMERIC]

@@ -2,7 +2,7 @@
 
 A stage is written out element by element (source, source resistance, every network
 resistor, load, and the op-amp macromodel) as the unreduced circuit, independently of
-picker's own reduction (picker.design.topology); the same description becomes an
+picker's own reduction (picker.stages); the same description becomes an
 ngspice netlist and a sympy modified-nodal-analysis system.
 
 Macromodel in ngspice: a transconductance A0/Rx into Rx ‖ Cx (the single pole,
@@ -40,11 +40,13 @@ class OpAmp:
     gbw: float
     rin: float | None  # None: no resistor (infinite)
     ro: float | None  # None: no resistor (0)
+    cin: float | None = None  # None: no input capacitance
 
 
 @dataclass(frozen=True)
 class Circuit:
-    """Elements: ('R', a, b, ohms), ('V', plus, minus, volts), ('OPA', p, n, out, OpAmp)."""
+    """Elements: ('R', a, b, ohms), ('C', a, b, farads), ('V', plus, minus, volts),
+    ('OPA', p, n, out, OpAmp)."""
 
     name: str
     elements: tuple[tuple, ...]  # type: ignore[type-arg]
@@ -98,6 +100,9 @@ def _netlist_lines(c: Circuit, k: int) -> list[str]:
                 lines.append(f"VW{k}_{i} {node(a)} {node(b)} DC 0")
             else:
                 lines.append(f"R{k}_{i} {node(a)} {node(b)} {_v(r)}")
+        elif el[0] == "C":
+            _, a, b, c_f = el
+            lines.append(f"C{k}_{i} {node(a)} {node(b)} {_v(c_f)}")
         elif el[0] == "V":
             _, a, b, v = el
             phase = " 180" if v < 0 else ""
@@ -109,6 +114,8 @@ def _netlist_lines(c: Circuit, k: int) -> list[str]:
             x, y = f"c{k}_x", f"c{k}_y"
             if amp.rin is not None:
                 lines.append(f"RIN{k} {node(p)} {node(n)} {_v(amp.rin)}")
+            if amp.cin is not None:
+                lines.append(f"CIN{k} {node(p)} {node(n)} {_v(amp.cin)}")
             lines.append(f"G{k} 0 {x} {node(p)} {node(n)} {_v(amp.a0 / rx)}")
             lines.append(f"RX{k} {x} 0 {_v(rx)} noisy=0")
             lines.append(f"CX{k} {x} 0 {_v(cx)}")
@@ -196,7 +203,8 @@ def sympy_gain(c: Circuit, freq: float | None = None, a: sp.Expr | None = None) 
     """vo per volt of input by modified nodal analysis in exact arithmetic.
 
     ``freq`` None: DC; otherwise s = j·2π·f. ``a`` overrides the op-amp's A(s) (a symbol
-    for return-ratio checks). A resistor of 0 Ω is a wire (a 0 V branch).
+    for return-ratio checks). A resistor of 0 Ω is a wire (a 0 V branch); a capacitor
+    is the admittance s·C (open at DC).
     """
     def q(x: float) -> sp.Expr:
         return sp.Rational(repr(float(x)))
@@ -210,6 +218,8 @@ def sympy_gain(c: Circuit, freq: float | None = None, a: sp.Expr | None = None) 
         _, p, n, o, amp = el
         if amp.rin is not None:
             flat.append(("R", p, n, amp.rin))
+        if amp.cin is not None:
+            flat.append(("C", p, n, amp.cin))
         if a is None:
             a0, wp = q(amp.a0), 2 * sp.pi * q(amp.gbw) / q(amp.a0)
             s = 0 if freq is None else sp.I * 2 * sp.pi * q(freq)
@@ -217,9 +227,10 @@ def sympy_gain(c: Circuit, freq: float | None = None, a: sp.Expr | None = None) 
         else:
             a_s = a
         flat += [("E", "_y", p, n, a_s), ("R", "_y", o, amp.ro or 0.0)]
+    s_var = 0 if freq is None else sp.I * 2 * sp.pi * q(freq)
     nodes = sorted({nd for el in flat for nd in el[1:3 if el[0] != "E" else 4]} - {"0"})
     idx = {nd: i for i, nd in enumerate(nodes)}
-    branches = [el for el in flat if el[0] in ("V", "E") or el[3] == 0]
+    branches = [el for el in flat if el[0] in ("V", "E") or (el[0] == "R" and el[3] == 0)]
     size = len(nodes) + len(branches)
     m = sp.zeros(size, size)
     rhs = sp.zeros(size, 1)
@@ -231,8 +242,8 @@ def sympy_gain(c: Circuit, freq: float | None = None, a: sp.Expr | None = None) 
     for el in flat:
         kind, plus = el[0], at(el[1])
         minus = None if kind == "E" else at(el[2])
-        if kind == "R" and el[3] != 0:
-            g = 1 / q(el[3])
+        if kind == "C" or (kind == "R" and el[3] != 0):
+            g = s_var * q(el[3]) if kind == "C" else 1 / q(el[3])
             for u, w, sgn in ((plus, plus, 1), (minus, minus, 1), (plus, minus, -1),
                               (minus, plus, -1)):
                 if u is not None and w is not None:

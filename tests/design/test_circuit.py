@@ -16,10 +16,10 @@ import pytest
 import sympy as sp
 from numpy.testing import assert_allclose
 
-from picker.design.circuit import closed_loop_gain, closed_loop_pole_hz, loop, transfer
+from picker.circuit.opamp import closed_loop_gain, closed_loop_pole_hz, loop, transfer
 from picker.design.requirement import Requirement
 from picker.design.spec import ng_eff
-from picker.design.topology import stage
+from picker.stages import stage
 from tests.design.reference import (
     Circuit,
     OpAmp,

@@ -18,11 +18,11 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
+from picker.circuit.opamp import closed_loop_gain
 from picker.design import netmodel as nm
-from picker.design.circuit import closed_loop_gain
 from picker.design.network import design_network, exact_gain
 from picker.design.requirement import Requirement
-from picker.design.topology import stage
+from picker.stages import stage
 
 # outside CI a missing ngspice skips these; in CI (CI set) they run and fail loudly
 pytestmark = pytest.mark.skipif(shutil.which("ngspice") is None and not os.environ.get("CI"),

@@ -10,10 +10,10 @@ import pandas as pd
 import pytest
 from numpy.testing import assert_allclose
 
-from picker.design.circuit import closed_loop_gain
+from picker.circuit.opamp import closed_loop_gain
 from picker.design.requirement import Requirement
 from picker.design.response import response
-from picker.design.topology import stage
+from picker.stages import stage
 from tests.design.macromodel_spice import Part, ac, f3db
 from tests.design.wave_cases import CASES, GP
 
@@ -48,7 +48,7 @@ def test_response_matches_ngspice_ac(name: str, part: Part, req: Requirement,
 
 
 def test_response_equals_the_solver_exact_gain() -> None:
-    # consistency with picker.design.circuit.closed_loop_gain (checked there against
+    # consistency with picker.circuit.opamp.closed_loop_gain (checked there against
     # ngspice .op/.ac and sympy)
     frame = pd.concat([GP.frame("gp"), Part(5e6, 1e6, np.nan, np.nan, np.nan, np.nan,
                                             1.0, 1.0).frame("sparse")])

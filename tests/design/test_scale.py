@@ -22,10 +22,10 @@ from numpy.testing import assert_allclose, assert_array_equal
 
 from picker.checks import Parts, needed_columns, run_checks
 from picker.checks.core import result, worse
-from picker.design.circuit import loop
+from picker.circuit.opamp import loop
 from picker.design.requirement import requirement_from
 from picker.design.spec import minimum_specs
-from picker.design.topology import Stage
+from picker.stages import Stage
 
 SCRIPTS = Path(__file__).resolve().parents[2] / "scripts"
 
@@ -113,7 +113,7 @@ def test_expanded_loop_coefficients_match_sympy_nodal_analysis(values: tuple[flo
     ro = [75.0, 0.0, 300.0, math.nan]
     lp = loop(st, rin, ro)
     for i in range(len(rin)):
-        # sympy: the nodal equations of the circuit in picker.design.circuit's docstring,
+        # sympy: the nodal equations of the reduced circuit (kp, zp, kg, rg, rf, load),
         # solved for vo as a function of the open-loop gain A
         vp, vn, vo, a = sp.symbols("vp vn vo A")
         q = sp.Rational  # exact arithmetic on the given binary values

@@ -10,10 +10,10 @@ import numpy as np
 import pandas as pd
 from numpy.testing import assert_allclose
 
-from picker.design.circuit import closed_loop_gain
+from picker.circuit.opamp import closed_loop_gain
 from picker.design.rank import select
 from picker.design.requirement import Requirement
-from picker.design.topology import stage
+from picker.stages import stage
 
 DEMO = Path(__file__).resolve().parents[2] / "picker" / "data" / "demo_stockroom.csv"
 

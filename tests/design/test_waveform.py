@@ -11,11 +11,11 @@ import pandas as pd
 import pytest
 from numpy.testing import assert_allclose
 
-from picker.design.circuit import closed_loop_gain
+from picker.circuit.opamp import closed_loop_gain
 from picker.design.loopstate import loop_state
 from picker.design.requirement import Requirement
-from picker.design.topology import stage
 from picker.design.waveform import LIMITS, Drive, candidate_waveforms, simulate, waveforms
+from picker.stages import stage
 from tests.design.macromodel_spice import Part, tran
 from tests.design.wave_cases import CASES, F_SLEW, FET, GP, RR, SLEW_STAGE, WIDE
 
@@ -90,7 +90,7 @@ def test_clip_fact_of_the_trade() -> None:
 
 
 def test_one_state_loop_equals_the_exact_nodal_gain() -> None:
-    # consistency with picker.design.circuit (itself checked against ngspice and sympy)
+    # consistency with picker.circuit.opamp (itself checked against ngspice and sympy)
     parts = {"aol": np.array([2e5, 3e3, 1e7]), "gbw": np.array([1e6, 2e8, 5e5]),
              "rin": np.array([2e6, 1e5, 1e12]), "ro": np.array([75.0, 10.0, 1000.0])}
     for _, _, req, _ in CASES:
