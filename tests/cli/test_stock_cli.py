@@ -100,7 +100,8 @@ def test_log_csv_guards_formulas_and_filters_by_time(demo_db: str) -> None:
     assert rows[0]["project"] == "'=HYPERLINK(1)" and rows[0]["note"] == "'+1"
     assert rows[0]["delta"] == "-1"
     later = run("stock", "log", "--csv", "--since", "2999-01-01", "--db", demo_db).stdout
-    assert later.strip() == "at,by,part,delta,qty_after,project,reason,note"
+    assert later.strip() == ("at,by,part,delta,qty_after,project,reason,note,"
+                             "reserved_delta,reserved_after")
 
 
 def test_low_uses_the_reorder_level(demo_db: str) -> None:
@@ -143,10 +144,10 @@ def test_an_old_stockroom_is_refused_until_upgraded(tmp_path: Path) -> None:
     first_schema_with_rows(f"sqlite:///{db}").dispose()
     res = run("stock", "log", "--db", db, ok=False)
     assert res.exit_code == 2
-    assert "has schema 0001, this picker needs 0002" in res.stderr
+    assert "has schema 0001, this picker needs 0003" in res.stderr
     assert "`picker db backup FILE`, then run `picker db upgrade`" in res.stderr
     run("db", "backup", str(tmp_path / "before-upgrade.db"), "--db", db)  # as advised
-    assert "schema 0001 -> 0002" in run("db", "upgrade", "--db", db).stdout
+    assert "schema 0001 -> 0003" in run("db", "upgrade", "--db", db).stdout
     assert "took 1 of bip-gp-a" in run("stock", "take", "bip-gp-a", "1", "--for", "p",
                                        "--db", db).stdout
 
@@ -228,7 +229,7 @@ STAGE = ["--topology", "non-inverting", "--gain", "20", "--vin", "0.25V", "--fre
          "--rails", "±12", "--qty", "3"]
 
 
-def test_pick_reserve_takes_the_top_part_after_asking(demo_db: str) -> None:
+def test_pick_reserve_reserves_the_top_part_after_asking(demo_db: str) -> None:
     import math
 
     sel = json.loads(run("pick", *STAGE, "--json", "--db", demo_db).stdout)
@@ -241,19 +242,22 @@ def test_pick_reserve_takes_the_top_part_after_asking(demo_db: str) -> None:
     args = ["pick", *STAGE, "--reserve", "--for", "amp-7", "--db", demo_db]
     no = CliRunner().invoke(cli, args, input="n\n")
     assert no.exit_code == 1 and "nothing was changed" in no.stderr
-    assert f"take {n} of {top} for amp-7? [y/N]" in no.stderr
+    assert f"reserve {n} of {top} for amp-7? [y/N]" in no.stderr
     assert json.loads(run("stock", "log", "--json", "--db", demo_db).stdout) == []
     yes = CliRunner().invoke(cli, args, input="y\n", catch_exceptions=False)
     assert yes.exit_code == 0, yes.output
-    assert f"reserved {n} of {top} for amp-7; {start - n} left" in yes.stdout
+    assert (f"reserved {n} of {top} for amp-7; {start - n} left ({start} on hand, {n} reserved)"
+            in yes.stdout)
     # --yes with --json: no question, stdout stays JSON, the receipt goes to stderr
     quiet = run("pick", *STAGE, "--json", "--reserve", "--yes", "--for", "amp-8", "--db",
                 demo_db)
     assert json.loads(quiet.stdout)["accepted"][0]["part"] == top
     assert f"reserved {n} of {top} for amp-8; {start - 2 * n} left" in quiet.stderr
     moves = json.loads(run("stock", "log", top, "--json", "--db", demo_db).stdout)
-    assert [(m["project"], m["delta"], m["reason"]) for m in moves] == [
-        ("amp-7", -n, "take"), ("amp-8", -n, "take")]
+    assert [(m["project"], m["delta"], m["reserved_delta"], m["reason"]) for m in moves] == [
+        ("amp-7", 0, n, "reserve"), ("amp-8", 0, n, "reserve")]
+    # a reservation is not a take: the parts are still on hand
+    assert json.loads(run("parts", "show", top, "--json", "--db", demo_db).stdout)["qty"] == start
 
 
 def test_pick_reserve_needs_a_project(demo_db: str) -> None:

@@ -125,7 +125,7 @@ def test_an_older_or_newer_database_is_refused_with_the_fix(db_url: str) -> None
     from sqlalchemy import text
 
     first_schema_with_rows(db_url).dispose()
-    with pytest.raises(StoreError, match=r"schema 0001, this picker needs 0002.*picker db upgrade"):
+    with pytest.raises(StoreError, match=r"schema 0001, this picker needs 0003.*picker db upgrade"):
         Store.open(db_url)
     store = Store.open(db_url, check=False)
     store.upgrade()
