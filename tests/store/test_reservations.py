@@ -229,3 +229,56 @@ def test_backup_and_restore_carry_the_reservations(store: Store, db_url: str, tm
     assert [(h.project, h.out, h.reserved) for h in reservations.projects(target)] == [
         ("alpha", 2, 4)]
     target.dispose()
+
+
+# -- several people at the same moment --------------------------------------------------
+def test_takes_reserves_releases_issues_and_edits_from_four_processes(db_url: str) -> None:
+    """4 processes x 150 random movements over 2 parts (take, reserve, release, issue,
+    parts edit qty=): afterwards, for every part, on hand = start + the logged on-hand
+    changes, reserved = the logged reservation changes, and available never went below 0."""
+    from tests.store import stock_workers
+    from tests.store.test_stock import run_processes
+
+    labels, start = ["race-a", "race-b"], 40
+    seed = Store.create(db_url)
+    for label in labels:
+        seed.add({"label": label, "qty": start})
+    seed.dispose()
+    reports, elapsed = run_processes(
+        stock_workers.reservations_mix,
+        [(db_url, labels, 150, f"proj-{i}", 2000 + i) for i in range(4)])
+    kinds: dict[str, int] = {}
+    for r in reports:
+        for k, v in r["ok"].items():
+            kinds[k] = kinds.get(k, 0) + v
+    print(f"\n4 x 150 reservation movements on {db_url.split(':')[0]}: {elapsed:.2f} s wall; "
+          f"done {kinds}, refused {sum(len(r['refused']) for r in reports)}")
+    assert [r["errors"] for r in reports] == [[], [], [], []]
+    refused = [m for r in reports for m in r["refused"]]
+    assert all(("only " in m and " left" in m) or "cannot go below what projects have reserved"
+               in m for m in refused), refused[:3]
+    assert all(kinds.get(k, 0) > 10 for k in ("take", "reserve", "release", "issue", "edit"))
+    store = Store.open(db_url)
+    rows: dict[str, int] = {}
+    for label in labels:
+        moves = stock.log(store, label)
+        for m in moves:
+            rows[m.reason] = rows.get(m.reason, 0) + 1
+        qty, held = start, 0
+        for m in moves:  # in log order every balance follows from the one before
+            qty += m.delta
+            held += m.reserved_delta
+            assert (m.qty_after, m.reserved_after) == (qty, held)
+            assert 0 <= held <= qty  # available never negative
+        assert store.get(label)["qty"] == qty
+        assert reserved_of(store, label) == held
+        # each project's reservation in the log is what its process holds
+        for r in reports:
+            assert sum(m.reserved_delta for m in moves if m.project == r["project"]) == \
+                r["held"][label]
+    # one log row per movement made (an edit to the quantity already there writes none)
+    assert {k: rows.get(k, 0) for k in ("take", "reserve", "release", "issue")} == {
+        k: kinds.get(k, 0) for k in ("take", "reserve", "release", "issue")}
+    assert rows.get("count", 0) <= kinds["edit"]
+    store.dispose()
+    assert elapsed < 60
