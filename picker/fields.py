@@ -59,8 +59,14 @@ FIELDS: tuple[Field, ...] = (
     Field("notes", "text", "notes", "free text", "stock"),
 )
 
-BY_NAME: dict[str, Field] = {f.name: f for f in FIELDS}
-NUMERIC: tuple[str, ...] = tuple(f.name for f in FIELDS if f.kind != "text")
+# Numbers the store computes from stored columns: read-only, never imported or edited.
+DERIVED: tuple[Field, ...] = (
+    Field("available", "count", "available", "packages on hand not reserved for a project (qty - reserved)", "stock"),
+)
+
+BY_NAME: dict[str, Field] = {f.name: f for f in (*FIELDS, *DERIVED)}
+# Numeric fields as the checks read them (Store.parts_columns): stored and derived.
+NUMERIC: tuple[str, ...] = tuple(f.name for f in (*FIELDS, *DERIVED) if f.kind != "text")
 TEXT: tuple[str, ...] = tuple(f.name for f in FIELDS if f.kind == "text")
 # Fields every row must have; everything else may be unknown.
 REQUIRED: tuple[str, ...] = ("label",)

@@ -1,4 +1,4 @@
-"""`picker stock ...`: take, return, restock and count parts; the movement log."""
+"""`picker stock ...`: take, return, restock, count and reserve parts; the movement log."""
 
 from __future__ import annotations
 
@@ -51,12 +51,34 @@ def note_option(f: F) -> F:
     return click.option("--note", metavar="TEXT", help="free text kept in the log")(f)
 
 
+def remaining(mv: Any) -> str:
+    """What is left after a movement: '5 left', or '3 left (5 on hand, 2 reserved)'."""
+    if mv.reserved_after:
+        return (f"{mv.available_after} left ({mv.qty_after} on hand, "
+                f"{mv.reserved_after} reserved)")
+    return f"{mv.available_after} left"
+
+
+def warn_if_low(mv: Any) -> None:
+    """One warning line on stderr when the part's available packages reached its reorder
+    level (not an error: the movement was made)."""
+    if mv.reorder_due:
+        click.echo(f"picker: warning: {mv.part} is down to {mv.available_after} available, "
+                   f"at or under its reorder level of {mv.reorder_level}; "
+                   "`picker stock low` lists what to reorder", err=True)
+
+
+def project_option(help_text: str) -> Callable[[F], F]:
+    return click.option("--for", "project", required=True, metavar="PROJECT", help=help_text)
+
+
 @click.group()
 def stock() -> None:
-    """Take, return, restock and count parts; the movement log and low stock.
+    """Take, return, restock, count and reserve parts; the movement log and low stock.
 
-    Every change of a quantity is written together with its row in the movement log
-    (when, who, part, change, project, reason), so the log always explains the stock.
+    Every change of a quantity on hand or reserved is written together with its row in
+    the movement log (when, who, part, change, project, reason), so the log always
+    explains the stock. Available = on hand - reserved: what can be taken or reserved.
     """
 
 
@@ -70,12 +92,69 @@ def stock() -> None:
 @db_option
 def take(part: str, qty: int, project: str, by: str | None, note: str | None,
          db: str | None) -> None:
-    """Take QTY packages of PART out of the stockroom for a project."""
+    """Take QTY packages of PART out of the stockroom for a project (only packages that
+    no project has reserved; see `stock issue` for reserved ones)."""
     from picker.store import stock as ops
 
     with opened(db) as store:
         mv = ops.take(store, part, qty, project, who(by), note)
-    click.echo(f"took {qty} of {mv.part} for {mv.project}; {mv.qty_after} left")
+    click.echo(f"took {qty} of {mv.part} for {mv.project}; {remaining(mv)}")
+    warn_if_low(mv)
+
+
+@stock.command()
+@click.argument("part")
+@click.argument("qty", type=_QTY)
+@project_option("the project the packages are set aside for")
+@by_option
+@note_option
+@db_option
+def reserve(part: str, qty: int, project: str, by: str | None, note: str | None,
+            db: str | None) -> None:
+    """Set QTY packages of PART aside for a project; they stay on hand but cannot be
+    taken or reserved by anyone else."""
+    from picker.store import reservations as ops
+
+    with opened(db) as store:
+        mv = ops.reserve(store, part, qty, project, who(by), note)
+    click.echo(f"reserved {qty} of {mv.part} for {mv.project}; {remaining(mv)}")
+    warn_if_low(mv)
+
+
+@stock.command()
+@click.argument("part")
+@click.argument("qty", type=_QTY)
+@project_option("the project whose reservation shrinks")
+@by_option
+@note_option
+@db_option
+def release(part: str, qty: int, project: str, by: str | None, note: str | None,
+            db: str | None) -> None:
+    """Give back QTY reserved packages of PART (no more than the project has reserved)."""
+    from picker.store import reservations as ops
+
+    with opened(db) as store:
+        mv = ops.release(store, part, qty, project, who(by), note)
+    click.echo(f"released {qty} of {mv.part} from {mv.project}; {remaining(mv)}")
+
+
+@stock.command()
+@click.argument("part")
+@click.argument("qty", type=_QTY)
+@project_option("the project whose reserved packages are handed out")
+@by_option
+@note_option
+@db_option
+def issue(part: str, qty: int, project: str, by: str | None, note: str | None,
+          db: str | None) -> None:
+    """Hand out QTY packages of PART that a project has reserved: they leave the
+    stockroom (on hand and reserved both drop)."""
+    from picker.store import reservations as ops
+
+    with opened(db) as store:
+        mv = ops.issue(store, part, qty, project, who(by), note)
+    click.echo(f"issued {qty} of {mv.part} to {mv.project}; {remaining(mv)}")
+    warn_if_low(mv)
 
 
 @stock.command("return")
@@ -93,7 +172,7 @@ def return_(part: str, qty: int, project: str, by: str | None, note: str | None,
 
     with opened(db) as store:
         mv = ops.return_(store, part, qty, project, who(by), note)
-    click.echo(f"returned {qty} of {mv.part} from {mv.project}; {mv.qty_after} on hand")
+    click.echo(f"returned {qty} of {mv.part} from {mv.project}; {remaining(mv)}")
 
 
 @stock.command("add")
@@ -108,7 +187,7 @@ def add(part: str, qty: int, by: str | None, note: str | None, db: str | None) -
 
     with opened(db) as store:
         mv = ops.restock(store, part, qty, who(by), note)
-    click.echo(f"added {qty} of {mv.part}; {mv.qty_after} on hand")
+    click.echo(f"added {qty} of {mv.part}; {remaining(mv)}")
 
 
 @stock.command()
@@ -152,12 +231,34 @@ def log(part: str | None, since: str | None, fmt: str, db: str | None) -> None:
 
 
 @stock.command()
+@click.argument("project", required=False)
+@format_option
+@db_option
+def projects(project: str | None, fmt: str, db: str | None) -> None:
+    """What each project (or only PROJECT) has out and reserved, part by part."""
+    from picker.report.stock import projects_csv, projects_table
+    from picker.report.tables import to_json
+    from picker.store import reservations as ops
+
+    with opened(db) as store:
+        rows = ops.projects(store, project)
+    if fmt == "json":
+        click.echo(to_json([r.as_dict() for r in rows]))
+    elif fmt == "csv":
+        projects_csv(rows, sys.stdout)
+    else:
+        click.echo(projects_table(rows))
+        click.echo(f"{len(rows)} part(s) out or reserved", err=True)
+
+
+@stock.command()
 @click.option("--below", type=click.IntRange(min=0, max=1_000_000_000), metavar="N",
-              help="every part with fewer than N on hand, whatever its reorder level")
+              help="every part with fewer than N available, whatever its reorder level")
 @format_option
 @db_option
 def low(below: int | None, fmt: str, db: str | None) -> None:
-    """Parts at or under their reorder level (set one with `parts edit P reorder_level=N`)."""
+    """Parts whose available packages (on hand - reserved) are at or under their reorder
+    level (set one with `parts edit P reorder_level=N`)."""
     from picker.report.stock import low_csv, low_table
     from picker.report.tables import to_json
     from picker.store import stock as ops
@@ -174,22 +275,23 @@ def low(below: int | None, fmt: str, db: str | None) -> None:
 
 
 def reserve_top(store: Any, sel: Any, project: str | None, yes: bool, quiet_stdout: bool) -> None:
-    """`picker pick --reserve`: take the top accepted part for the project.
+    """`picker pick --reserve`: reserve what the library plans for the accepted parts.
 
-    Packages = channels needed (--qty) / channels per package, rounded up. Asks for
-    confirmation unless yes; with JSON output every word goes to stderr.
+    Asks for confirmation unless yes; with JSON output every word goes to stderr.
     """
-    from picker.errors import Conflict
-    from picker.store import stock as ops
+    from picker.store import reservations as ops
 
     if not project:
         raise BadValue("--for", "", "is needed with --reserve: the project the parts go to")
-    if not sel.accepted:
-        raise Conflict("no part is accepted for this stage; nothing reserved")
-    label = sel.accepted[0].part
-    per = store.get(label)["channels"]
-    n = ops.packages_needed(sel.requirement.qty, per)
+    plan = ops.plan(store, [c.part for c in sel.accepted], sel.requirement.qty)
+    if plan.skipped:
+        click.echo(f"the {plan.skipped} better-ranked accepted part(s) have too few packages "
+                   f"available; {plan.part} is the best one that has enough", err=True)
     if not yes:
-        click.confirm(f"take {n} of {label} for {project}?", abort=True, err=True)
-    mv = ops.reserve(store, label, n, project, who(None))
-    click.echo(f"reserved {n} of {label} for {project}; {mv.qty_after} left", err=quiet_stdout)
+        click.confirm(f"reserve {plan.packages} of {plan.part} for {project}?", abort=True,
+                      err=True)
+    mv = ops.reserve(store, plan.part, plan.packages, project, who(None),
+                     note="reserved by picker pick")
+    click.echo(f"reserved {plan.packages} of {plan.part} for {project}; {remaining(mv)}",
+               err=quiet_stdout)
+    warn_if_low(mv)

@@ -5,7 +5,8 @@ pandas) and are written column by column into arrays sized by a COUNT first, so
 reading a million parts needs little more memory than the arrays themselves. Numbers
 become float64 with NaN for unknown; text stays Python str; ``updated_at`` goes
 through SQLAlchemy's own conversion for the dialect, and only when it is asked for.
-Rows come ordered by label.
+Rows come ordered by label. ``available`` (picker.fields.DERIVED) is computed by the
+database as ``qty - reserved``: packages on hand that no project has reserved.
 """
 
 from __future__ import annotations
@@ -38,7 +39,7 @@ def read_columns(engine: Engine, names: Sequence[str], where: Sequence[Any] = ()
     numeric = [n for n in names if n in NUMERIC]
     other = [n for n in names if n not in NUMERIC]
     order = [*numeric, *other]
-    stmt = select(parts.c.label, *[parts.c[n] for n in order]).where(*where)
+    stmt = select(parts.c.label, *[column(n) for n in order]).where(*where)
     with engine.connect() as conn:
         total = int(conn.execute(select(func.count()).select_from(parts).where(*where))
                     .scalar_one())
@@ -72,6 +73,15 @@ def read_columns(engine: Engine, names: Sequence[str], where: Sequence[Any] = ()
     return labels[:pos], {n: cols[n] for n in names}
 
 
+def column(name: str) -> Any:
+    """The SQL expression of a part field: a stored column, or a derived number."""
+    from picker.store.models import parts
+
+    if name == "available":
+        return (parts.c.qty - parts.c.reserved).label("available")
+    return parts.c[name]
+
+
 def _converted(sqltype: Any, dialect: Any, values: npt.NDArray[Any]) -> npt.NDArray[Any]:
     """Values as SQLAlchemy would return them (e.g. SQLite's text dates as datetimes)."""
     proc = sqltype.dialect_impl(dialect).result_processor(dialect, None)
@@ -84,4 +94,4 @@ def _converted(sqltype: Any, dialect: Any, values: npt.NDArray[Any]) -> npt.NDAr
     return out
 
 
-__all__ = ["CHUNK_ROWS", "read_columns"]
+__all__ = ["CHUNK_ROWS", "column", "read_columns"]

@@ -42,6 +42,9 @@ def _part_columns() -> list[Column]:  # type: ignore[type-arg]
         else:
             cols.append(Column(f.name, Float(precision=53)))
     cols.append(Column("updated_at", DateTime(timezone=True), nullable=False))
+    # packages set aside for projects (migration 0003); not a user field: only the
+    # stock commands change it, each with its row in the movement log
+    cols.append(Column("reserved", Integer, nullable=False, server_default="0"))
     return cols
 
 
@@ -50,14 +53,23 @@ parts = Table(
     metadata,
     *_part_columns(),
     CheckConstraint("qty >= 0", name="ck_parts_qty_not_negative"),
+    # available = qty - reserved is never negative (a negative qty is the rule above's
+    # to refuse: SQLite names only the first rule that fails)
+    CheckConstraint("reserved >= 0 AND (qty < 0 OR reserved <= qty)", name="ck_parts_reserved"),
 )
 
 
-# Why a quantity changed; 'import' is reserved for bulk loads that log their stock.
-REASONS: tuple[str, ...] = ("take", "return", "restock", "count", "import")
+# Why a quantity changed; 'import' is for bulk loads that log their stock. 'reserve' and
+# 'release' change only the reserved quantity; 'issue' turns reserved packages into
+# taken ones (on hand and reserved both drop) (migration 0003).
+REASONS: tuple[str, ...] = ("take", "return", "restock", "count", "import",
+                            "reserve", "release", "issue")
+# The reasons whose changes on hand belong to a project's parts out.
+OUT_REASONS: tuple[str, ...] = ("take", "return", "issue")
 
-# One row per change of a quantity on hand (migration 0002). part_id is cleared when
-# the part is removed (ON DELETE SET NULL); part_label keeps the label of that moment.
+# One row per change of a quantity on hand or reserved (migrations 0002, 0003).
+# delta/qty_after: on hand; reserved_delta/reserved_after: reserved. part_id is cleared
+# when the part is removed (ON DELETE SET NULL); part_label keeps the label of that moment.
 movements = Table(
     "movements",
     metadata,
@@ -76,11 +88,15 @@ movements = Table(
     Column("project", String(200), nullable=True),
     Column("reason", String(16), nullable=False),
     Column("note", Text, nullable=True),
+    Column("reserved_delta", Integer, nullable=False, server_default="0"),
+    Column("reserved_after", Integer, nullable=False, server_default="0"),
     CheckConstraint(
         "reason IN (" + ", ".join(f"'{r}'" for r in REASONS) + ")", name="ck_movements_reason"
     ),
-    CheckConstraint("delta <> 0 OR reason = 'count'", name="ck_movements_delta"),
+    CheckConstraint("delta <> 0 OR reserved_delta <> 0 OR reason = 'count'",
+                    name="ck_movements_delta"),
     CheckConstraint("qty_after >= 0", name="ck_movements_qty_after"),
+    CheckConstraint("reserved_after >= 0", name="ck_movements_reserved_after"),
     Index("ix_movements_part_id", "part_id"),
     Index("ix_movements_at", "at"),
     Index("ix_movements_part_label", "part_label"),

@@ -404,6 +404,9 @@ def _integrity_message(exc: Exception, label: str) -> str:
     text = str(getattr(exc, "orig", exc)).lower()
     if "qty" in text or "ck_parts_qty" in text:
         return f"{label or 'a part'}: the quantity on hand cannot go below zero; nothing changed"
+    if "ck_parts_reserved" in text:
+        return (f"{label or 'a part'}: the quantity on hand cannot go below what projects have "
+                "reserved; release or issue them first (`picker stock projects`); nothing changed")
     if "unique" in text or "duplicate" in text:
         return f"{label or 'a label'} is already in the stockroom; choose another label"
     return f"the stockroom refused the change ({redact(str(getattr(exc, 'orig', exc)))})"

@@ -1,11 +1,14 @@
 """Stock movements: take, return, restock, count, the movement log and low stock.
 
-Each movement is ONE transaction that changes the quantity on hand and writes its
-row in the movement log together, so the log always explains the quantity:
-``qty now = qty before + sum of the logged deltas``.
+Each movement is ONE transaction that changes the quantity on hand (and the reserved
+quantity, picker.store.reservations) and writes its row in the movement log together,
+so the log always explains both:
+``qty now = qty before + sum of the logged deltas`` and
+``reserved now = sum of the logged reserved_deltas``. What can be taken is what is
+available, ``qty - reserved``; the database refuses a row where it would be negative.
 
 Concurrency without read-modify-write: a take is the single statement
-``UPDATE parts SET qty = qty - :n WHERE label = :l AND qty >= :n``; the database
+``UPDATE parts SET qty = qty - :n WHERE label = :l AND qty - reserved >= :n``; the database
 applies it atomically against the current row (SQLite holds its write lock,
 PostgreSQL re-checks the WHERE clause on the newest row version after waiting for a
 row lock), so two people can never take the same last part. Operations that must
@@ -33,7 +36,7 @@ if TYPE_CHECKING:
 
     from picker.store.repo import Store
 
-Reason = Literal["take", "return", "restock", "count", "import"]
+Reason = Literal["take", "return", "restock", "count", "import", "reserve", "release", "issue"]
 
 QTY_MAX = 1_000_000_000
 NAME_MAX = 100
@@ -43,7 +46,12 @@ NOTE_MAX = 10_000
 
 @dataclass(frozen=True)
 class Movement:
-    """One row of the movement log; ``at`` is timezone-aware UTC."""
+    """One row of the movement log; ``at`` is timezone-aware UTC.
+
+    ``delta``/``qty_after``: packages on hand; ``reserved_delta``/``reserved_after``:
+    packages reserved for projects. ``reorder_level`` is the part's reorder level when
+    a take, reserve or issue was made (None in rows read from the log).
+    """
 
     id: int
     at: datetime
@@ -54,12 +62,26 @@ class Movement:
     project: str | None
     reason: Reason
     note: str | None
+    reserved_delta: int = 0
+    reserved_after: int = 0
+    reorder_level: int | None = None
+
+    @property
+    def available_after(self) -> int:
+        """Packages on hand and not reserved after the movement."""
+        return self.qty_after - self.reserved_after
+
+    @property
+    def reorder_due(self) -> bool:
+        """The available packages are at or under the part's reorder level."""
+        return self.reorder_level is not None and self.available_after <= self.reorder_level
 
     def as_dict(self) -> dict[str, Any]:
         return {
             "id": self.id, "at": self.at, "by": self.by, "part": self.part,
             "delta": self.delta, "qty_after": self.qty_after, "project": self.project,
             "reason": self.reason, "note": self.note,
+            "reserved_delta": self.reserved_delta, "reserved_after": self.reserved_after,
         }
 
 
@@ -152,31 +174,56 @@ def _now() -> datetime:
 def _log(
     conn: Connection, part_id: int, label: str, delta: int, qty_after: int,
     project: str | None, reason: Reason, by: str, note: str | None, at: datetime,
+    *, reserved_delta: int = 0, reserved_after: int | None = None,
+    reorder_level: int | None = None,
 ) -> Movement:
     """The log row of a movement; called while the part's row is locked, with the time
-    taken after the lock was granted (so times follow the order of the movements)."""
-    from sqlalchemy import insert
+    taken after the lock was granted (so times follow the order of the movements).
+    Without reserved_after the part's reserved quantity is read (it is locked)."""
+    from sqlalchemy import insert, select
 
-    from picker.store.models import movements
+    from picker.store.models import movements, parts
 
+    if reserved_after is None:
+        reserved_after = int(conn.execute(
+            select(parts.c.reserved).where(parts.c.id == part_id)).scalar_one())
     new_id = conn.execute(
         insert(movements).values(
             at=at, by_user=by, part_id=part_id, part_label=label, delta=delta,
             qty_after=qty_after, project=project, reason=reason, note=note,
+            reserved_delta=reserved_delta, reserved_after=reserved_after,
         ).returning(movements.c.id)
     ).scalar_one()
-    return Movement(int(new_id), at, by, label, delta, qty_after, project, reason, note)
+    return Movement(int(new_id), at, by, label, delta, qty_after, project, reason, note,
+                    reserved_delta, reserved_after, reorder_level)
 
 
 def _missing(label: str) -> NotFound:
     return NotFound(f"part {label!r} is not in the stockroom; `picker parts list` shows them")
 
 
+def _too_few(conn: Connection, label: str, n: int, project: str | None, verb: str) -> Conflict:
+    """Why a guarded take or reserve changed nothing (NotFound if the part is not there)."""
+    from sqlalchemy import select
+
+    from picker.store.models import parts
+
+    row = conn.execute(
+        select(parts.c.qty, parts.c.reserved).where(parts.c.label == label)).first()
+    if row is None:
+        raise _missing(label)
+    free = int(row.qty) - int(row.reserved)
+    held = f" ({row.qty} on hand, {row.reserved} reserved for projects)" if row.reserved else ""
+    return Conflict(f"only {free} of {label} left{held}, {n} {verb} for {project}; "
+                    "nothing changed")
+
+
 # -- movements -------------------------------------------------------------------
 def take(store: Store, label: str, qty: int, project: str, by: str,
          note: str | None = None) -> Movement:
-    """Take qty packages out for a project; Conflict (nothing changed) if too few."""
-    from sqlalchemy import select, update
+    """Take qty packages out for a project; Conflict (nothing changed) if fewer are
+    available (on hand and not reserved)."""
+    from sqlalchemy import update
 
     from picker.store.models import parts
 
@@ -184,20 +231,17 @@ def take(store: Store, label: str, qty: int, project: str, by: str,
     proj = _name(project, "--for", PROJECT_MAX, required=True)
     at = _now()
     with _transaction(store) as conn:
+        # only what no project has reserved can be taken: qty - reserved >= n
         row = conn.execute(
             update(parts)
-            .where(parts.c.label == label, parts.c.qty >= n)
+            .where(parts.c.label == label, parts.c.qty - parts.c.reserved >= n)
             .values(qty=parts.c.qty - n, updated_at=at)
-            .returning(parts.c.id, parts.c.qty)
+            .returning(parts.c.id, parts.c.qty, parts.c.reserved, parts.c.reorder_level)
         ).first()
         if row is None:
-            have = conn.execute(select(parts.c.qty).where(parts.c.label == label)).scalar()
-            if have is None:
-                raise _missing(label)
-            raise Conflict(
-                f"only {have} of {label} left, {n} asked for {proj}; nothing changed"
-            )
-        return _log(conn, row.id, label, -n, row.qty, proj, "take", who or "", text, _now())
+            raise _too_few(conn, label, n, proj, "asked")
+        return _log(conn, row.id, label, -n, row.qty, proj, "take", who or "", text, _now(),
+                    reserved_after=int(row.reserved), reorder_level=row.reorder_level)
 
 
 def return_(store: Store, label: str, qty: int, project: str, by: str,
@@ -205,7 +249,7 @@ def return_(store: Store, label: str, qty: int, project: str, by: str,
     """Put qty packages back from a project; no more than the project has out."""
     from sqlalchemy import func, select, update
 
-    from picker.store.models import movements, parts
+    from picker.store.models import OUT_REASONS, movements, parts
 
     n, who, text = _checked(qty, by, note)
     proj = _name(project, "--for", PROJECT_MAX, required=True)
@@ -216,15 +260,16 @@ def return_(store: Store, label: str, qty: int, project: str, by: str,
             update(parts)
             .where(parts.c.label == label)
             .values(qty=parts.c.qty + n, updated_at=at)
-            .returning(parts.c.id, parts.c.qty)
+            .returning(parts.c.id, parts.c.qty, parts.c.reserved)
         ).first()
         if row is None:
             raise _missing(label)
+        # out = taken + issued - returned, for this project
         out = -int(conn.execute(
             select(func.coalesce(func.sum(movements.c.delta), 0)).where(
                 movements.c.part_id == row.id,
                 movements.c.project == proj,
-                movements.c.reason.in_(("take", "return")),
+                movements.c.reason.in_(OUT_REASONS),
             )
         ).scalar_one())
         if n > out:
@@ -232,7 +277,8 @@ def return_(store: Store, label: str, qty: int, project: str, by: str,
                 f"{proj} has only {max(out, 0)} of {label} out, so {n} cannot come back; "
                 "nothing changed (check --for, or book new stock with `picker stock add`)"
             )
-        return _log(conn, row.id, label, n, row.qty, proj, "return", who or "", text, _now())
+        return _log(conn, row.id, label, n, row.qty, proj, "return", who or "", text, _now(),
+                    reserved_after=int(row.reserved))
 
 
 def restock(store: Store, label: str, qty: int, by: str, note: str | None = None) -> Movement:
@@ -248,15 +294,18 @@ def restock(store: Store, label: str, qty: int, by: str, note: str | None = None
             update(parts)
             .where(parts.c.label == label)
             .values(qty=parts.c.qty + n, updated_at=at)
-            .returning(parts.c.id, parts.c.qty)
+            .returning(parts.c.id, parts.c.qty, parts.c.reserved)
         ).first()
         if row is None:
             raise _missing(label)
-        return _log(conn, row.id, label, n, row.qty, None, "restock", who or "", text, _now())
+        return _log(conn, row.id, label, n, row.qty, None, "restock", who or "", text, _now(),
+                    reserved_after=int(row.reserved))
 
 
 def count(store: Store, label: str, qty: int, by: str, note: str | None = None) -> Movement:
-    """Set the quantity after a physical count; the log keeps the difference."""
+    """Set the quantity after a physical count; the log keeps the difference.
+
+    A count below what projects have reserved is refused (release those first)."""
     from sqlalchemy import update
 
     from picker.store.models import parts
@@ -269,18 +318,19 @@ def count(store: Store, label: str, qty: int, by: str, note: str | None = None) 
             update(parts)
             .where(parts.c.label == label)
             .values(updated_at=at)
-            .returning(parts.c.id, parts.c.qty)
+            .returning(parts.c.id, parts.c.qty, parts.c.reserved)
         ).first()
         if row is None:
             raise _missing(label)
+        if n < row.reserved:
+            raise Conflict(
+                f"{row.reserved} of {label} are reserved for projects, so a count of {n} "
+                "cannot stand; release or issue reservations first (`picker stock projects` "
+                "lists them); nothing changed"
+            )
         conn.execute(update(parts).where(parts.c.id == row.id).values(qty=n))
         return _log(conn, row.id, label, n - int(row.qty), n, None, "count", who or "", text,
-                    _now())
-
-
-def reserve(store: Store, label: str, qty: int, project: str, by: str) -> Movement:
-    """Take the part chosen by a selection for a design (`picker pick --reserve`)."""
-    return take(store, label, qty, project, by, note="reserved by picker pick")
+                    _now(), reserved_after=int(row.reserved))
 
 
 # -- reads -----------------------------------------------------------------------
@@ -301,7 +351,8 @@ def log(store: Store, label: str | None = None, since: datetime | date | None = 
     m = movements
     stmt = (
         select(m.c.id, m.c.at, m.c.by_user, func.coalesce(parts.c.label, m.c.part_label),
-               m.c.delta, m.c.qty_after, m.c.project, m.c.reason, m.c.note)
+               m.c.delta, m.c.qty_after, m.c.project, m.c.reason, m.c.note,
+               m.c.reserved_delta, m.c.reserved_after)
         .select_from(m.outerjoin(parts, parts.c.id == m.c.part_id))
         .order_by(m.c.id)
     )
@@ -325,24 +376,27 @@ def log(store: Store, label: str | None = None, since: datetime | date | None = 
                 )
     except OperationalError as exc:
         raise busy_error(store.where, exc) from None
-    return [Movement(int(r[0]), _utc(r[1]), r[2], r[3], int(r[4]), int(r[5]), r[6], r[7], r[8])
-            for r in rows]
+    return [Movement(int(r[0]), _utc(r[1]), r[2], r[3], int(r[4]), int(r[5]), r[6], r[7], r[8],
+                     int(r[9]), int(r[10])) for r in rows]
 
 
 def low(store: Store, below: int | None = None) -> list[dict[str, Any]]:
-    """Parts at or under their reorder level (or, with below, every part under it)."""
+    """Parts whose available packages (on hand - reserved) are at or under their reorder
+    level (or, with below, every part with fewer than below available)."""
     from sqlalchemy import and_, select
     from sqlalchemy.exc import OperationalError
 
     from picker.store.models import parts
 
     p = parts.c
+    available = (p.qty - p.reserved).label("available")
     if below is not None:
-        cond = p.qty < _qty(below, "--below", zero_ok=True)
+        cond = p.qty - p.reserved < _qty(below, "--below", zero_ok=True)
     else:
-        cond = and_(p.reorder_level.is_not(None), p.qty <= p.reorder_level)
-    stmt = (select(p.label, p.qty, p.reorder_level, p.location, p.description)
-            .where(cond).order_by(p.qty, p.label))
+        cond = and_(p.reorder_level.is_not(None), p.qty - p.reserved <= p.reorder_level)
+    stmt = (select(p.label, p.qty, p.reserved, available, p.reorder_level, p.location,
+                   p.description)
+            .where(cond).order_by(available, p.label))
     try:
         with store.engine.connect() as conn:
             return [dict(r) for r in conn.execute(stmt).mappings()]

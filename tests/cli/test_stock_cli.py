@@ -100,7 +100,8 @@ def test_log_csv_guards_formulas_and_filters_by_time(demo_db: str) -> None:
     assert rows[0]["project"] == "'=HYPERLINK(1)" and rows[0]["note"] == "'+1"
     assert rows[0]["delta"] == "-1"
     later = run("stock", "log", "--csv", "--since", "2999-01-01", "--db", demo_db).stdout
-    assert later.strip() == "at,by,part,delta,qty_after,project,reason,note"
+    assert later.strip() == ("at,by,part,delta,qty_after,project,reason,note,"
+                             "reserved_delta,reserved_after")
 
 
 def test_low_uses_the_reorder_level(demo_db: str) -> None:
@@ -143,10 +144,10 @@ def test_an_old_stockroom_is_refused_until_upgraded(tmp_path: Path) -> None:
     first_schema_with_rows(f"sqlite:///{db}").dispose()
     res = run("stock", "log", "--db", db, ok=False)
     assert res.exit_code == 2
-    assert "has schema 0001, this picker needs 0002" in res.stderr
+    assert "has schema 0001, this picker needs 0003" in res.stderr
     assert "`picker db backup FILE`, then run `picker db upgrade`" in res.stderr
     run("db", "backup", str(tmp_path / "before-upgrade.db"), "--db", db)  # as advised
-    assert "schema 0001 -> 0002" in run("db", "upgrade", "--db", db).stdout
+    assert "schema 0001 -> 0003" in run("db", "upgrade", "--db", db).stdout
     assert "took 1 of bip-gp-a" in run("stock", "take", "bip-gp-a", "1", "--for", "p",
                                        "--db", db).stdout
 
@@ -227,7 +228,7 @@ STAGE = ["--topology", "non-inverting", "--gain", "20", "--vin", "0.25V", "--fre
          "--rails", "±12", "--qty", "3"]
 
 
-def test_pick_reserve_takes_the_top_part_after_asking(demo_db: str) -> None:
+def test_pick_reserve_reserves_the_top_part_after_asking(demo_db: str) -> None:
     import math
 
     sel = json.loads(run("pick", *STAGE, "--json", "--db", demo_db).stdout)
@@ -240,19 +241,22 @@ def test_pick_reserve_takes_the_top_part_after_asking(demo_db: str) -> None:
     args = ["pick", *STAGE, "--reserve", "--for", "amp-7", "--db", demo_db]
     no = CliRunner().invoke(cli, args, input="n\n")
     assert no.exit_code == 1 and "nothing was changed" in no.stderr
-    assert f"take {n} of {top} for amp-7? [y/N]" in no.stderr
+    assert f"reserve {n} of {top} for amp-7? [y/N]" in no.stderr
     assert json.loads(run("stock", "log", "--json", "--db", demo_db).stdout) == []
     yes = CliRunner().invoke(cli, args, input="y\n", catch_exceptions=False)
     assert yes.exit_code == 0, yes.output
-    assert f"reserved {n} of {top} for amp-7; {start - n} left" in yes.stdout
+    assert (f"reserved {n} of {top} for amp-7; {start - n} left ({start} on hand, {n} reserved)"
+            in yes.stdout)
     # --yes with --json: no question, stdout stays JSON, the receipt goes to stderr
     quiet = run("pick", *STAGE, "--json", "--reserve", "--yes", "--for", "amp-8", "--db",
                 demo_db)
     assert json.loads(quiet.stdout)["accepted"][0]["part"] == top
     assert f"reserved {n} of {top} for amp-8; {start - 2 * n} left" in quiet.stderr
     moves = json.loads(run("stock", "log", top, "--json", "--db", demo_db).stdout)
-    assert [(m["project"], m["delta"], m["reason"]) for m in moves] == [
-        ("amp-7", -n, "take"), ("amp-8", -n, "take")]
+    assert [(m["project"], m["delta"], m["reserved_delta"], m["reason"]) for m in moves] == [
+        ("amp-7", 0, n, "reserve"), ("amp-8", 0, n, "reserve")]
+    # a reservation is not a take: the parts are still on hand
+    assert json.loads(run("parts", "show", top, "--json", "--db", demo_db).stdout)["qty"] == start
 
 
 def test_pick_reserve_needs_a_project(demo_db: str) -> None:
@@ -260,3 +264,71 @@ def test_pick_reserve_needs_a_project(demo_db: str) -> None:
     assert res.exit_code == 2 and "--reserve needs --for PROJECT" in res.stderr
     assert res.stdout == ""
     assert json.loads(run("stock", "log", "--json", "--db", demo_db).stdout) == []
+
+
+# -- reservations ------------------------------------------------------------------------------
+def test_reserve_release_issue_and_projects(demo_db: str) -> None:
+    label, start = a_part()
+    out = run("stock", "reserve", label, "5", "--for", "amp-1", "--by", "ann", "--db", demo_db)
+    assert out.stdout.strip() == (
+        f"reserved 5 of {label} for amp-1; {start - 5} left ({start} on hand, 5 reserved)")
+    res = run("stock", "take", label, str(start - 4), "--for", "amp-2", "--db", demo_db, ok=False)
+    assert res.exit_code == 2 and res.stderr.strip() == (
+        f"picker: error: only {start - 5} of {label} left ({start} on hand, 5 reserved for "
+        f"projects), {start - 4} asked for amp-2; nothing changed")
+    out = run("stock", "issue", label, "2", "--for", "amp-1", "--db", demo_db)
+    assert out.stdout.strip() == (
+        f"issued 2 of {label} to amp-1; {start - 5} left ({start - 2} on hand, 3 reserved)")
+    res = run("stock", "release", label, "4", "--for", "amp-1", "--db", demo_db, ok=False)
+    assert res.exit_code == 2 and res.stderr.count("\n") == 1
+    assert "amp-1 has only 3 of" in res.stderr and "nothing changed" in res.stderr
+    out = run("stock", "release", label, "1", "--for", "amp-1", "--db", demo_db)
+    assert out.stdout.strip() == (
+        f"released 1 of {label} from amp-1; {start - 4} left ({start - 2} on hand, 2 reserved)")
+    rows = json.loads(run("stock", "projects", "--json", "--db", demo_db).stdout)
+    assert rows == [{"project": "amp-1", "part": label, "out": 2, "reserved": 2}]
+    table = run("stock", "projects", "amp-1", "--db", demo_db)
+    assert "amp-1" in table.stdout and "1 part(s) out or reserved" in table.stderr
+    csv_rows = list(csv.DictReader(io.StringIO(
+        run("stock", "projects", "--csv", "--db", demo_db).stdout)))
+    assert csv_rows == [{"project": "amp-1", "part": label, "out": "2", "reserved": "2"}]
+    assert run("stock", "projects", "nobody", "--json", "--db", demo_db).stdout.strip() == "[]"
+    moves = json.loads(run("stock", "log", label, "--json", "--db", demo_db).stdout)
+    assert [(m["reason"], m["by"]) for m in moves][0] == ("reserve", "ann")
+    assert start + sum(m["delta"] for m in moves) == start - 2
+    assert sum(m["reserved_delta"] for m in moves) == 2
+
+
+def test_a_take_down_to_the_reorder_level_warns_and_succeeds(demo_db: str) -> None:
+    label, start = a_part()
+    run("parts", "edit", label, "reorder_level=5", "--db", demo_db)
+    calm = run("stock", "take", label, str(start - 6), "--for", "p", "--db", demo_db)
+    assert calm.stderr == ""
+    low = run("stock", "take", label, "1", "--for", "p", "--db", demo_db)  # 6 -> 5 left
+    assert low.exit_code == 0 and low.stdout.strip() == f"took 1 of {label} for p; 5 left"
+    assert low.stderr == (f"picker: warning: {label} is down to 5 available, at or under its "
+                          "reorder level of 5; `picker stock low` lists what to reorder\n")
+    run("stock", "reserve", label, "2", "--for", "q", "--db", demo_db)
+    issued = run("stock", "issue", label, "1", "--for", "q", "--db", demo_db)
+    assert "is down to 3 available" in issued.stderr
+    rows = json.loads(run("stock", "low", "--json", "--db", demo_db).stdout)
+    row = next(r for r in rows if r["label"] == label)
+    assert (row["qty"], row["reserved"], row["available"]) == (4, 1, 3)
+
+
+@pytest.mark.parametrize("args", [
+    ["stock", "reserve", "no-such-part", "1", "--for", "x"],
+    ["stock", "reserve", "{label}", "0", "--for", "x"],
+    ["stock", "reserve", "{label}", "1"],
+    ["stock", "release", "{label}", "1", "--for", "x"],
+    ["stock", "issue", "{label}", "1", "--for", "x"],
+    ["stock", "issue", "{label}", "1000000001", "--for", "x"],
+])
+def test_bad_reservations_are_one_line_and_exit_2(demo_db: str, args: list[str]) -> None:
+    label, _ = a_part()
+    before = run("parts", "export", "--db", demo_db).stdout
+    res = run(*[a.format(label=label) for a in args], "--db", demo_db, ok=False)
+    assert res.exit_code == 2, res.output
+    assert res.stderr.startswith("picker: error: ") and res.stderr.count("\n") == 1
+    assert res.stdout == ""
+    assert run("parts", "export", "--db", demo_db).stdout == before

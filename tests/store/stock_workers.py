@@ -92,3 +92,64 @@ def writer(url: str, label: str, n: int, started: Any, out: Any) -> None:
         report["errors"].append(traceback.format_exc())
     started.set()
     out.put(report)
+
+
+def reservations_mix(url: str, labels: list[str], n: int, project: str, seed: int,
+                     barrier: Any, out: Any) -> None:
+    """n random movements for one project over a few parts: takes, reserves, releases and
+    issues of what this project reserved, and now and then `parts edit qty=`.
+
+    A take or reserve may be refused when too few are available and an edit when it
+    would go below what is reserved (clean Conflicts); a release or issue of this
+    project's own reservation must never be refused (no other process touches it).
+    """
+    from picker.errors import Conflict, PickerError
+    from picker.store import Store, reservations, stock
+
+    rng = random.Random(seed)
+    report: dict[str, Any] = {"project": project, "ok": {}, "refused": [], "errors": [],
+                              "held": {}, "seconds": 0.0}
+    held = dict.fromkeys(labels, 0)
+    try:
+        store = Store.open(url)
+        barrier.wait(timeout=60)
+        t0 = time.perf_counter()
+        for _ in range(n):
+            label = rng.choice(labels)
+            k = rng.randint(1, 3)
+            roll = rng.random()
+            if roll < 0.05:
+                kind = "edit"
+            elif held[label] >= k and roll < 0.45:
+                kind = "issue" if roll < 0.25 else "release"
+            else:
+                kind = "take" if roll < 0.7 else "reserve"
+            by = f"worker-{project}"
+            try:
+                if kind == "edit":
+                    store.edit(label, {"qty": rng.randint(20, 60)}, by=by)
+                elif kind == "take":
+                    stock.take(store, label, k, project, by)
+                elif kind == "reserve":
+                    reservations.reserve(store, label, k, project, by)
+                    held[label] += k
+                elif kind == "release":
+                    reservations.release(store, label, k, project, by)
+                    held[label] -= k
+                else:
+                    reservations.issue(store, label, k, project, by)
+                    held[label] -= k
+                report["ok"][kind] = report["ok"].get(kind, 0) + 1
+            except Conflict as exc:
+                if kind in ("release", "issue"):
+                    report["errors"].append(f"{kind} refused: {exc}")
+                else:
+                    report["refused"].append(f"{kind}: {exc}")
+            except PickerError as exc:
+                report["errors"].append(repr(exc))
+        report["seconds"] = time.perf_counter() - t0
+        report["held"] = held
+        store.dispose()
+    except BaseException:
+        report["errors"].append(traceback.format_exc())
+    out.put(report)

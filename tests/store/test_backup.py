@@ -186,7 +186,9 @@ def _damage(lines: list[str], how: str) -> list[str]:
         return lines[:-2]
     if how == "bad row":  # the last movement breaks a rule of the schema
         row = json.loads(lines[-2])
-        row["r"][-2] = "borrowed"  # reason
+        cols = next(t["columns"] for t in json.loads(lines[0])["tables"]
+                    if t["name"] == "movements")
+        row["r"][cols.index("reason")] = "borrowed"
         return [*lines[:-2], json.dumps(row), lines[-1]]
     if how == "newer schema":
         head = json.loads(lines[0])

@@ -125,7 +125,7 @@ def test_an_older_or_newer_database_is_refused_with_the_fix(db_url: str) -> None
     from sqlalchemy import text
 
     first_schema_with_rows(db_url).dispose()
-    with pytest.raises(StoreError, match=r"schema 0001, this picker needs 0002.*picker db upgrade"):
+    with pytest.raises(StoreError, match=r"schema 0001, this picker needs 0003.*picker db upgrade"):
         Store.open(db_url)
     store = Store.open(db_url, check=False)
     store.upgrade()
@@ -154,4 +154,45 @@ def test_a_failing_migration_changes_nothing(db_url: str) -> None:
         cols = {c["name"] for c in inspect(conn).get_columns("parts")}
     assert "reorder_level" not in cols
     assert all_rows(store.engine, "parts") == before
+    store.dispose()
+
+
+def test_upgrade_from_0002_keeps_every_row_and_starts_with_nothing_reserved(db_url: str
+                                                                           ) -> None:
+    """A stockroom with parts and movements at schema 0002 comes through 0003 whole."""
+    from sqlalchemy import MetaData, insert
+
+    engine = first_schema_with_rows(db_url)
+    migrate.upgrade(engine, "0002")
+    meta = MetaData()
+    with engine.begin() as conn:
+        meta.reflect(conn)
+        assert "reserved" not in meta.tables["parts"].c
+        ids = {r["label"]: r["id"] for r in all_rows(engine, "parts")}
+        conn.execute(insert(meta.tables["movements"]), [
+            {"at": STAMP, "by_user": "ann", "part_id": ids["bip-gp-a"], "part_label": "bip-gp-a",
+             "delta": -3, "qty_after": 37, "project": "alpha", "reason": "take", "note": None},
+            {"at": STAMP, "by_user": "ben", "part_id": None, "part_label": "gone",
+             "delta": 5, "qty_after": 5, "project": None, "reason": "restock", "note": "x"},
+        ])
+    parts_before = all_rows(engine, "parts")
+    moves_before = all_rows(engine, "movements")
+    migrate.upgrade(engine, "head")
+    assert migrate.current(engine) == migrate.HEAD == "0003"
+    parts_after = all_rows(engine, "parts")
+    moves_after = all_rows(engine, "movements")
+    assert len(parts_after) == len(parts_before) and len(moves_after) == len(moves_before) == 2
+    for b, a in zip(parts_before, parts_after, strict=True):
+        assert {k: a[k] for k in b} == b and a["reserved"] == 0
+    for b, a in zip(moves_before, moves_after, strict=True):
+        assert {k: a[k] for k in b} == b
+        assert (a["reserved_delta"], a["reserved_after"]) == (0, 0)
+    engine.dispose()
+    # the upgraded stockroom reserves, and keeps the new rule
+    from picker.store import reservations
+
+    store = Store.open(db_url)
+    assert reservations.reserve(store, "bip-gp-a", 2, "p", "a").reserved_after == 2
+    with pytest.raises(Conflict, match="cannot go below what projects have reserved"):
+        store.edit("bip-gp-a", {"qty": 1})
     store.dispose()

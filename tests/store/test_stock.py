@@ -19,7 +19,7 @@ from typing import Any
 import pytest
 
 from picker.errors import BadValue, Conflict, NotFound, StoreError
-from picker.store import Store, stock
+from picker.store import Store, reservations, stock
 from picker.store import engine as engine_mod
 from tests.conftest import SMALL_CSV
 from tests.store import stock_workers
@@ -146,16 +146,22 @@ def test_failure_after_the_update_rolls_the_quantity_back(
 ) -> None:
     """The quantity and its log row are one transaction: a failure between them undoes both."""
     stock.take(store, "bip-gp-a", 2, "p", "a")  # so that a return is allowed
+
+    reservations.reserve(store, "bip-gp-a", 2, "p", "a")  # so release and issue are allowed
     before = store.checksum()
 
-    def power_cut(*args: object) -> None:
+    def power_cut(*args: object, **kwargs: object) -> None:
         raise RuntimeError("power cut between the update and the log row")
 
     monkeypatch.setattr(stock, "_log", power_cut)
+    monkeypatch.setattr(reservations, "_log", power_cut)
     for call in (lambda: stock.take(store, "bip-gp-a", 1, "p", "a"),
                  lambda: stock.return_(store, "bip-gp-a", 1, "p", "a"),
                  lambda: stock.restock(store, "bip-gp-a", 1, "a"),
-                 lambda: stock.count(store, "bip-gp-a", 1, "a")):
+                 lambda: stock.count(store, "bip-gp-a", 3, "a"),
+                 lambda: reservations.reserve(store, "bip-gp-a", 1, "p", "a"),
+                 lambda: reservations.release(store, "bip-gp-a", 1, "p", "a"),
+                 lambda: reservations.issue(store, "bip-gp-a", 1, "p", "a")):
         with pytest.raises(RuntimeError, match="power cut"):
             call()
     assert store.checksum() == before
@@ -204,13 +210,10 @@ def test_removing_a_part_keeps_its_history(store: Store) -> None:
     assert [m.delta for m in stock.log(store, "bip-gp-a")] == [-2, -1]
 
 
-def test_reserve_takes_the_packages_a_design_needs(store: Store) -> None:
+def test_packages_a_design_needs(store: Store) -> None:
     # channels needed / channels per package, rounded up (common practice, no source)
     assert [stock.packages_needed(c, 4) for c in (1, 4, 5, 8, 9)] == [1, 1, 2, 2, 3]
     assert stock.packages_needed(3, 2) == 2 and stock.packages_needed(2, None) == 2
-    mv = stock.reserve(store, "bip-ss-b", stock.packages_needed(6, 4), "filter", "ann")
-    assert (mv.delta, mv.reason, mv.project) == (-2, "take", "filter")
-    assert store.get("bip-ss-b")["qty"] == csv_qty()["bip-ss-b"] - 2
 
 
 # -- a database that stays busy ------------------------------------------------------
