@@ -124,7 +124,7 @@ def applicable(spec: Spec) -> tuple[Check, ...]:
 
 
 #: Columns the ranking and the pick listing read besides the checks.
-RANKING_READS: tuple[str, ...] = ("price", "qty", "channels")
+RANKING_READS: tuple[str, ...] = ("price", "qty", "available", "channels")
 
 
 def needed_columns(spec: Spec) -> tuple[str, ...]:

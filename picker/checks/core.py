@@ -62,7 +62,12 @@ class Parts(Mapping[str, Array]):
         if col is None:
             if name not in NUMERIC:
                 raise KeyError(name)
-            col = self._cols[name] = np.full(len(self.labels), np.nan)
+            if name == "available" and "qty" in self._cols:  # derived: on hand - reserved
+                reserved = self._cols.get("reserved")
+                col = self._cols["qty"] - (0.0 if reserved is None else reserved)
+            else:
+                col = np.full(len(self.labels), np.nan)
+            self._cols[name] = col
         return col
 
     def __iter__(self) -> Iterator[str]:

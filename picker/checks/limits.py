@@ -195,12 +195,13 @@ SUPPLY = Check(name="supply", kind="voltage", reads=("supply_min_v", "supply_max
 # -- stock -------------------------------------------------------------------------------
 
 def _stock(p: Parts, s: Spec) -> CheckResult:
-    """Channels on hand (packages x channels) against channels needed.
+    """Channels available (packages on hand and not reserved, x channels) against
+    channels needed.
 
     With the channel count unknown each package counts as one channel: enough packages
     pass; too few are unknown, not failed.
     """
-    qty, ch = p["qty"], p["channels"]
+    qty, ch = p["available"], p["channels"]
     no_ch = np.isnan(ch)
     lower = qty * np.where(no_ch, 1.0, ch)
     has = np.where(no_ch & (lower < s.requirement.qty), np.nan, lower)
@@ -214,16 +215,17 @@ def _stock_explain(s: Spec) -> list[Explained]:
 
 
 def _stock_detail(s: Spec, p: Parts, i: int) -> str:
-    qty, ch = float(p["qty"][i]), float(p["channels"][i])
-    return f"{_count(qty)} packages × {_count(ch)} channels"
+    qty, ch = float(p["available"][i]), float(p["channels"][i])
+    return f"{_count(qty)} packages available × {_count(ch)} channels"
 
 
 def _count(x: float) -> str:
     return "-" if math.isnan(x) else str(int(x))
 
 
-STOCK = Check(name="stock", kind="count", reads=("qty", "channels"), run=_stock,
-              needs=lambda s: ("qty",), formula="packages × channels >= channels needed",
+STOCK = Check(name="stock", kind="count", reads=("available", "channels"), run=_stock,
+              needs=lambda s: ("available",),
+              formula="packages available (on hand - reserved) × channels >= channels needed",
               explain=_stock_explain, detail=_stock_detail, ranked=False)  # logistics
 
 

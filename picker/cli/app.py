@@ -27,7 +27,7 @@ COMMANDS: dict[str, tuple[str, str]] = {
     "net": ("picker.cli.network:net", "design the stage's resistor network from E-series values"),
     "wave": ("picker.cli.wave:wave", "predict the output waveform of a part in the stage"),
     "bode": ("picker.cli.wave:bode", "closed-loop gain and phase over frequency"),
-    "stock": ("picker.cli.stock:stock", "take, return, restock and count parts; the movement log"),
+    "stock": ("picker.cli.stock:stock", "take, reserve, release, issue, return, restock and count parts; the log"),
 }
 
 EXIT_BAD_INPUT = 2

@@ -170,7 +170,7 @@ def _rank_keys(by: By, parts: Parts, margin: np.ndarray) -> list[np.ndarray]:
         price = parts["price"]
         return [np.where(np.isnan(price), np.inf, price), -margin]
     if by == "stock":
-        on_hand = parts["qty"] * np.where(np.isnan(parts["channels"]), 1.0, parts["channels"])
+        on_hand = parts["available"] * np.where(np.isnan(parts["channels"]), 1.0, parts["channels"])
         return [np.where(np.isnan(on_hand), np.inf, -on_hand), -margin]
     return [-margin]
 
