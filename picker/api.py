@@ -149,8 +149,7 @@ def why(req: Requirement, part: str, store: Any) -> PartReport:
 
 
 def design_network(req: Requirement, part: Mapping[str, Any] | None = None, *,
-                   series: SeriesName = DEFAULT_SERIES, tolerance: float = 0.01,
-                   zin_ohm: float | None = None) -> Any:
+                   series: SeriesName = DEFAULT_SERIES, zin_ohm: float | None = None) -> Any:
     """The stage's resistor network from standard values (``picker net``).
 
     Parameters
@@ -161,8 +160,6 @@ def design_network(req: Requirement, part: Mapping[str, Any] | None = None, *,
         become limits of the search.
     series : str
         IEC 60063 series (E3 .. E192).
-    tolerance : float
-        Resistor tolerance (ratio) for the worst case and the Monte Carlo spread.
     zin_ohm : float, optional
         Smallest input impedance the source may see, Ω.
 
@@ -173,7 +170,7 @@ def design_network(req: Requirement, part: Mapping[str, Any] | None = None, *,
     """
     from picker.design.network import design_network as design
 
-    return design(req, part, series=series, tolerance=tolerance, zin_ohm=zin_ohm,
+    return design(req, part, series=series, tolerance=req.tolerance, zin_ohm=zin_ohm,
                   feedback_ohm=req.rf_ohm if req.rf_pinned else None)
 
 

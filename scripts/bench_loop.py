@@ -70,6 +70,11 @@ def _loop(st: Any, rin: float, ro: float) -> tuple[float, float, float, float]:
     return n0, n1, d0, d1
 
 
+def _spread_error(g: float, budget: Any) -> float:
+    """|G|/G with the resistors anywhere in their tolerance: the worse end."""
+    return max(abs(g * (1 + budget.tolerance_high) - 1), abs(g * (1 - budget.tolerance_low) - 1))
+
+
 def check_rows(cols: Mapping[str, list[float]], spec: Any) -> dict[str, list[float]]:
     """Margins per check and part (NaN = unknown), one part at a time."""
     req, st = spec.requirement, spec.stage
@@ -115,14 +120,14 @@ def check_rows(cols: Mapping[str, list[float]], spec: Any) -> dict[str, list[flo
             err = nan
         else:
             g_dc = (n0 + n1 * a0) / (d0 + d1 * a0)
-            err_dc = abs(abs(g_dc) / st.gain - 1)
+            err_dc = _spread_error(abs(g_dc) / st.gain, spec.budget)
             if err_dc > gain_need:
                 err = err_dc
             elif math.isnan(gbw):
                 err = nan
             else:
                 a = a0 / (1 + 1j * f * a0 / gbw)
-                err_f = abs(abs((n0 + n1 * a) / (d0 + d1 * a)) / st.gain - 1)
+                err_f = _spread_error(abs((n0 + n1 * a) / (d0 + d1 * a)) / st.gain, spec.budget)
                 err = max(err_dc, err_f)
         missing = ((rin_matters and math.isnan(row["rin_ohm"]))
                    or (ro_matters and math.isnan(row["rout_ohm"])))

@@ -33,7 +33,7 @@ DEMO = ROOT / "picker" / "data" / "demo_stockroom.csv"
 # the README's quick-start stage: inverting x10, 0.5 V peak in (5 V peak out) at 20 kHz,
 # rails +-12 V, 2 kOhm load
 STAGE = ["--topology", "inverting", "--gain", "10", "--vin", "0.5Vpk", "--freq", "20kHz",
-         "--rails", "±12", "--load", "2k"]
+         "--rails", "±12", "--load", "2k", "--tolerance", "0.1%"]
 VOUT_PEAK_V, FREQ_HZ, RAIL_V, LOAD_OHM = 5.0, 20e3, 12.0, 2e3
 
 

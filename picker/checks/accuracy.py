@@ -80,13 +80,17 @@ def _gains(p: Parts, st: Stage, f: float) -> tuple[Array, Array]:
         return g_dc, np.sqrt(num, out=num)
 
 
-def _errors(p: Parts, st: Stage, f: float) -> tuple[Array, Array]:
-    """Relative gain errors | |G|/G - 1 | at DC and at f, per part."""
+def _errors(p: Parts, s: Spec, f: float) -> tuple[Array, Array]:
+    """Relative gain errors at DC and at f, per part, with the resistors anywhere in
+    their tolerance: max(| g·(1 + w+) - 1 |, | g·(1 - w-) - 1 |), g = |G|/G."""
+    st, b = s.stage, s.budget
     out = []
     for g in _gains(p, st, f):
-        e = np.multiply(g, 1 / st.gain)
-        e -= 1
-        out.append(np.abs(e, out=e))
+        g = np.multiply(g, 1 / st.gain)
+        high = np.abs(g * (1 + b.tolerance_high) - 1)
+        g *= 1 - b.tolerance_low
+        g -= 1
+        out.append(np.maximum(high, np.abs(g, out=g)))
     return out[0], out[1]
 
 
@@ -97,7 +101,7 @@ def _gain_accuracy(p: Parts, s: Spec) -> CheckResult:
     through by (1 + jx), |G(f)| = |num + j·n0·x| / |den + j·d0·x| with num = n0 + n1·A0,
     den = d0 + d1·A0 (the DC gain is num/den): real arithmetic only.
     """
-    err_dc, err_f = _errors(p, s.stage, s.requirement.freq_hz)
+    err_dc, err_f = _errors(p, s, s.requirement.freq_hz)
     with np.errstate(invalid="ignore"):  # a DC failure is reported as such
         has = np.where(err_dc > s.budget.allowed, err_dc, np.maximum(err_dc, err_f))
     return result("gain_accuracy", "ratio", "<=", s.budget.allowed, has)
@@ -152,22 +156,25 @@ def _gain_detail(s: Spec, p: Parts, i: int) -> str:
     one = p.take([i])
     st, req = s.stage, s.requirement
     f = req.freq_hz
-    err_dc, err_f = (float(e[0]) for e in _errors(one, st, f))
+    err_dc, err_f = (float(e[0]) for e in _errors(one, s, f))
     g_dc, g_f = (float(g[0]) for g in _gains(one, st, f))
     sign = 1.0 if st.ideal_gain >= 0 else -1.0
     g = _loop(one, st).gain(open_loop(one["aol_v_per_v"], one["gbw_hz"], f))
     phase = float(np.degrees(np.angle(g * sign))[0])
     pole = float(_pole(one, st)[0])
-    return (f"DC {g_dc:.7g} V/V ({err_dc:.4%}); at {fmt(f, 'frequency')} {g_f:.7g} V/V "
-            f"({err_f:.4%}), phase {phase:+.3g}° from the ideal; closed-loop pole "
+    b = s.budget
+    return (f"DC {g_dc:.7g} V/V, at {fmt(f, 'frequency')} {g_f:.7g} V/V; with the resistors "
+            f"-{b.tolerance_low:.3%}/+{b.tolerance_high:.3%}: errors {err_dc:.4%} at DC, "
+            f"{err_f:.4%} at f; phase {phase:+.3g}° from the ideal; closed-loop pole "
             f"{fmt(pole, 'frequency')}")
 
 
 GAIN_ACCURACY = Check(
     name="gain_accuracy", kind="ratio", reads=("aol_v_per_v", "gbw_hz", "rin_ohm", "rout_ohm"),
     run=_gain_accuracy, needs=_gain_needs,
-    formula="| |G|/G - 1 | <= gain error/m at DC and at f; G exact from the nodal solution "
-            "(A(s) = A0/(1 + s·A0/(2π·GBW)), Rin, Ro, source, load, network)",
+    formula="| |G|·(1 ± w)/G - 1 | <= gain error/m at DC and at f; G exact from the nodal "
+            "solution (A(s) = A0/(1 + s·A0/(2π·GBW)), Rin, Ro, source, load, network), "
+            "w the resistor tolerance's gain spread",
     explain=_gain_explain, detail=_gain_detail)
 
 

@@ -29,8 +29,6 @@ class SeriesParam(click.ParamType):
 @requirement_options
 @click.option("--series", type=SeriesParam(), default="E24", show_default=True,
               help="IEC 60063 series of the resistors: E3 E6 E12 E24 E48 E96 E192")
-@click.option("--tolerance", type=QuantityParam("ratio"), default="1%", show_default=True,
-              help="resistor tolerance for the worst case and the Monte Carlo spread")
 @click.option("--zin", type=QuantityParam("resistance", positive=True),
               help="smallest input impedance the source may see (inverting, difference)")
 @click.option("--part", metavar="LABEL",
@@ -38,7 +36,7 @@ class SeriesParam(click.ParamType):
               "GBW) from this part and show its exact closed-loop gain")
 @click.option("--json", "as_json", is_flag=True, help="JSON on stdout (SI base units)")
 @db_option
-def net(stage: dict[str, Any], series: str, tolerance: float, zin: float | None,
+def net(stage: dict[str, Any], series: str, zin: float | None,
         part: str | None, as_json: bool, db: str | None) -> None:
     """Design the stage's resistor network from standard values.
 
@@ -58,7 +56,7 @@ def net(stage: dict[str, Any], series: str, tolerance: float, zin: float | None,
 
     req = build_requirement(stage)
     row = open_store(db).get(part) if part else None
-    network = api.design_network(req, row, series=series, tolerance=tolerance,  # type: ignore[arg-type]
+    network = api.design_network(req, row, series=series,  # type: ignore[arg-type]
                                  zin_ohm=zin)
     if as_json:
         click.echo(to_json(network.as_json()))

@@ -56,6 +56,8 @@ KEYS: dict[str, str] = {
     "source": "source_ohm",
     "rails": "rails",
     "gain-error": "gain_error",
+    "tolerance": "tolerance",
+    "tolerance-rule": "tolerance_rule",
     "offset-max": "offset_max_v",
     "noise-max": "noise_max_v",
     "temp": "temp",
@@ -95,6 +97,8 @@ class Requirement:
     load_ohm: float | None = None
     source_ohm: float = 0.0
     gain_error: float = 0.01
+    tolerance: float = 0.01  # of the gain-setting resistors (the budget includes it)
+    tolerance_rule: Literal["worst", "rss"] = "worst"  # worst case, or root-sum-square
     offset_max_v: float | None = None
     noise_max_v: float | None = None
     temp_min_c: float = T_REF_C
@@ -211,6 +215,9 @@ class Requirement:
             raise BadRequirement(
                 f"{label('vin')}: an input of {self.vin:g} Vpk around {ref:g} V goes beyond "
                 "the rails; lower the amplitude or widen the rails")
+        if not (0 <= self.tolerance < 0.5):
+            raise BadRequirement(f"{label('tolerance')}: {self.tolerance!r} is not a resistor "
+                                 "tolerance; give e.g. 1% or 0.1%")
         if not (0 < self.gain_error < 1):
             raise BadRequirement(f"{label('gain-error')}: {self.gain_error!r} must lie between "
                                  "0 and 100%, e.g. --gain-error 1%")
@@ -364,6 +371,13 @@ def _build(values: Mapping[str, tuple[Any, str]]) -> Requirement:
                 kw["rail_pos"], kw["rail_neg"] = parse_rails(str(raw), name)
         elif key == "gain-error":
             kw["gain_error"] = parse(raw, "ratio", name, allow_zero=False)
+        elif key == "tolerance":
+            kw["tolerance"] = parse(raw, "ratio", name)
+        elif key == "tolerance-rule":
+            rule = str(raw).strip().lower()
+            if rule not in ("worst", "rss"):
+                raise BadValue(name, raw, "is not a tolerance rule; use worst or rss")
+            kw["tolerance_rule"] = rule
         elif key in ("offset-max", "noise-max"):
             kw[KEYS[key]] = None if _optional(raw) else parse(
                 _rms_stripped(raw), "voltage", name, allow_negative=False, allow_zero=False)

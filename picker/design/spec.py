@@ -62,6 +62,8 @@ class Budget:
     total: float  # the requirement's gain error
     allowed: float  # total / margin
     network: float  # the network's own ratio error (signed)
+    tolerance_low: float  # how far resistor tolerance may lower the network's gain
+    tolerance_high: float  # ... and raise it (worst case, or RSS on request)
     opamp: float  # loss the op-amp may add (ℓ); <= 0: the network alone misses
     open_loop: float  # A0's DC share
     input_resistance: float | None  # Rin's DC share (None: Rin cannot matter)
@@ -155,15 +157,52 @@ def rin_for(st: Stage, ng_target: float) -> float:
     return (st.rg * st.zp + st.rf * st.rg + st.rf * st.zp) / (st.rg * (ng_target - ng))
 
 
+def tolerance_spread(req: Requirement, st: Stage) -> tuple[float, float]:
+    """How far the gain-setting resistors' tolerance may move the network's gain,
+    relative to its nominal value: (down, up).
+
+    ``worst``: the extreme corners of R·(1 ± t) (picker.design.tolerance.worst_case).
+    ``rss``: t·√(Σ Sᵢ²) either way, Sᵢ = ∂ln G/∂ln Rᵢ (the usual root-sum-square of
+    independent tolerances, first order; common practice, no source).
+    """
+    from picker.design.tolerance import worst_case
+    from picker.stages import kind
+
+    t = req.tolerance
+    nominal = abs(st.ideal_gain)
+    names = [n for n in kind(req.topology).gain_names if n in st.resistors
+             and math.isfinite(st.resistors[n]) and st.resistors[n] > 0]
+    if t == 0 or not names or nominal == 0:
+        return 0.0, 0.0
+    if req.tolerance_rule == "worst":
+        lo, hi = worst_case(req.topology, req.source_ohm, st.resistors, t)
+        return max(0.0, 1 - lo / nominal), max(0.0, hi / nominal - 1)
+    step, total = 1e-6, 0.0
+    gain = kind(req.topology).ideal_gain
+    for n in names:
+        moved = float(abs(gain(req.source_ohm, {**st.resistors, n: st.resistors[n] * (1 + step)})))
+        total += ((moved / nominal - 1) / step) ** 2
+    w = t * math.sqrt(total)
+    return w, w
+
+
 def _split(req: Requirement, st: Stage) -> tuple[Budget, float | None, float | None, float | None]:
-    """The budget and the minimum A0, Rin and GBW (None when the network alone misses)."""
+    """The budget and the minimum A0, Rin and GBW (None when the network alone misses).
+
+    With the resistors at the low end of their tolerance (gain r_net·(1 - w-)), the
+    op-amp may lose ℓ = 1 - (1 - e)/(r_net·(1 - w-)); the high end r_net·(1 + w+) must
+    stay within 1 + e by itself.
+    """
     allowed = req.gain_error / req.margin
     r_net = abs(st.ideal_gain) / st.gain
-    opamp = 1 - (1 - allowed) / r_net if r_net <= 1 + allowed else 0.0
+    w_lo, w_hi = tolerance_spread(req, st)
+    low = r_net * (1 - w_lo)
+    fits = low > 0 and r_net * (1 + w_hi) <= 1 + allowed and low >= 1 - allowed
+    opamp = 1 - (1 - allowed) / low if fits else 0.0
     matters = rin_matters(st)
     dc = opamp * DC_SHARE
     a_share = dc * (1 - RIN_SHARE) if matters else dc
-    budget = Budget(req.gain_error, allowed, r_net - 1, opamp, a_share,
+    budget = Budget(req.gain_error, allowed, r_net - 1, w_lo, w_hi, opamp, a_share,
                     dc - a_share if matters else None, dc, opamp - dc)
     if opamp <= 0:
         return budget, None, None, None
@@ -175,6 +214,20 @@ def _split(req: Requirement, st: Stage) -> tuple[Budget, float | None, float | N
     x = math.sqrt(loop_gain**2 / (1 - opamp) ** 2 - (1 + loop_gain) ** 2)
     gbw = req.freq_hz * a0 / x
     return budget, a0, rin, gbw
+
+
+def tolerance_that_fits(req: Requirement, st: Stage) -> float | None:
+    """The largest standard resistor tolerance that leaves the op-amp at least half of
+    the gain budget (None when even the tightest class does not)."""
+    from picker.design.tolerance import STANDARD_TOLERANCES
+
+    for t in STANDARD_TOLERANCES:
+        if t > req.tolerance:
+            continue
+        b, *_ = _split(req.with_changes(tolerance=t), st)
+        if b.opamp >= b.allowed / 2:
+            return t
+    return None
 
 
 def minimum_specs(req: Requirement) -> Spec:
@@ -207,8 +260,18 @@ def minimum_specs(req: Requirement) -> Spec:
         notes.append(f"the output would have to reach {minimum.swing_neg_v:.4g} V .. "
                      f"{minimum.swing_pos_v:.4g} V, beyond the rails: no part can pass swing; "
                      "lower the amplitude, move --ref or widen the rails")
+    spread = max(budget.tolerance_low, budget.tolerance_high)
+    if budget.opamp < budget.allowed / 2 and spread > 0:
+        fit = tolerance_that_fits(req, st)
+        cls = ("no standard tolerance leaves it room; widen --gain-error" if fit is None else
+               f"{fmt(fit, 'ratio')} resistors leave it at least half (--tolerance "
+               f"{fmt(fit, 'ratio')})")
+        notes.append(f"resistor tolerance {fmt(req.tolerance, 'ratio')} ({req.tolerance_rule}) "
+                     f"moves the gain by up to ±{spread:.3%} of the {budget.allowed:.3%} budget, "
+                     f"leaving the op-amp {max(budget.opamp, 0.0):.3%}; {cls}")
     if budget.opamp <= 0:
-        notes.append(f"the network alone misses the gain budget ({budget.network:+.3%} vs "
+        notes.append(f"the network alone misses the gain budget (nominal {budget.network:+.3%}, "
+                     f"tolerance -{budget.tolerance_low:.3%}/+{budget.tolerance_high:.3%} vs "
                      f"{budget.allowed:.3%}); no op-amp can meet it")
     if not st.ideal_network:
         notes.append("network: " + ", ".join(f"{k} {fmt(v, 'resistance')}"
@@ -230,9 +293,12 @@ def stage_rows(s: Spec) -> list[Explained]:
                   f"{s.noise_gain:.6g} V/V"),
         Explained(
             "gain_budget", "gain-error budget split", b.allowed, "ratio",
-            "network first, op-amp ℓ = 1-(1-e)/(|Gnet|/G): DC ℓ/5 (A0 16%, Rin 4% of ℓ), "
+            "network and resistor tolerance first, op-amp ℓ = 1-(1-e)/(|Gnet|/G·(1-w-)): "
+            "DC ℓ/5 (A0 16%, Rin 4% of ℓ), "
             "top frequency the rest (A0, Rin at their minimums)",
-            f"e = {fmt(b.allowed, 'ratio')}: network {b.network:+.3%}, A0 {b.open_loop:.3%}, "
+            f"e = {fmt(b.allowed, 'ratio')}: network {b.network:+.3%}, resistor tolerance "
+            f"-{b.tolerance_low:.3%}/+{b.tolerance_high:.3%} ({req.tolerance_rule}, "
+            f"{fmt(req.tolerance, 'ratio')}), A0 {b.open_loop:.3%}, "
             f"Rin {rin_share}, bandwidth {b.bandwidth:.3%} more at {fmt(f, 'frequency')} "
             f"(margin {m:g})"),
     ]

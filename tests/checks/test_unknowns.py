@@ -23,14 +23,14 @@ from picker.design.requirement import requirement_from
 from picker.design.spec import Spec, minimum_specs
 
 STAGES: list[dict[str, str]] = [
-    {"topology": "non-inverting", "gain": "2", "vin": "0.5V", "freq": "2kHz",
+    {"tolerance": "0", "topology": "non-inverting", "gain": "2", "vin": "0.5V", "freq": "2kHz",
      "rails": "+5/0", "ref": "2.5", "load": "1k"},
-    {"topology": "inverting", "gain": "10", "vin": "0.5V", "freq": "20kHz", "rails": "±12",
+    {"tolerance": "0", "topology": "inverting", "gain": "10", "vin": "0.5V", "freq": "20kHz", "rails": "±12",
      "load": "2k", "source": "600", "offset-max": "50mV", "noise-max": "2mV",
      "temp": "-40..85C"},
-    {"topology": "follower", "vin": "1V", "freq": "10kHz", "rails": "±15", "source": "100k",
+    {"tolerance": "0", "topology": "follower", "vin": "1V", "freq": "10kHz", "rails": "±15", "source": "100k",
      "load": "10k", "offset-max": "20mV"},
-    {"topology": "difference", "gain": "2", "vin": "1V", "freq": "1kHz", "rails": "±15",
+    {"tolerance": "0", "topology": "difference", "gain": "2", "vin": "1V", "freq": "1kHz", "rails": "±15",
      "load": "5k", "noise-max": "1mV"},
 ]
 

@@ -12,7 +12,7 @@ from numpy.testing import assert_allclose
 from tests.cli.clirun import fails, run
 
 STAGE = ["--topology", "non-inverting", "--gain", "20", "--vin", "0.25Vpk", "--freq", "20kHz",
-         "--rails", "±12", "--load", "2k"]
+         "--rails", "±12", "--load", "2k", "--tolerance", "0.1%"]
 
 
 def test_spec_table_and_json() -> None:
@@ -90,7 +90,7 @@ def test_pick_strict_moves_unverified_to_rejected(db: str) -> None:
 
 def test_pick_nearest_misses_when_nothing_passes(db: str) -> None:
     out = run("pick", "--topology", "non-inverting", "--gain", "100", "--vin", "0.05V",
-              "--freq", "500kHz", "--rails", "±12", "--db", db).stdout
+              "--freq", "500kHz", "--rails", "±12", "--tolerance", "0.1%", "--db", db).stdout
     assert "Accepted: none" in out and "Nearest misses" in out
     assert re.search(r"freq <= [\d.]+ kHz \(-\d+\.\d%\)", out)
 

@@ -225,7 +225,7 @@ def test_a_newer_stockroom_is_refused_even_by_upgrade(tmp_path: Path) -> None:
 
 # -- pick --reserve ----------------------------------------------------------------------------
 STAGE = ["--topology", "non-inverting", "--gain", "20", "--vin", "0.25V", "--freq", "20kHz",
-         "--rails", "±12", "--qty", "3"]
+         "--rails", "±12", "--qty", "3", "--tolerance", "0.1%"]
 
 
 def test_pick_reserve_reserves_the_top_part_after_asking(demo_db: str) -> None:

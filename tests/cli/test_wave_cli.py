@@ -17,7 +17,7 @@ from tests.design.macromodel_spice import Part, ac, f3db, tran
 
 DEMO = Path(__file__).parents[2] / "picker" / "data" / "demo_stockroom.csv"
 STAGE = ["--topology", "inverting", "--gain", "10", "--vout", "10V", "--freq", "20kHz",
-         "--rails", "±15", "--load", "2k"]
+         "--rails", "±15", "--load", "2k", "--tolerance", "0.1%"]
 # a stage with its own resistors, so the ngspice netlist can be written from the file
 DESIGN = """\
 topology = "inverting"

@@ -16,7 +16,7 @@ from picker.design.requirement import Requirement
 from picker.design.spec import Minimums
 from picker.errors import BadValue
 
-REQ = Requirement("non-inverting", 10.0, 12.0, -12.0, 10e3, vin_pk=0.5, load_ohm=2e3)
+REQ = Requirement("non-inverting", 10.0, 12.0, -12.0, 10e3, vin_pk=0.5, load_ohm=2e3, tolerance=0.0)
 SLEW_NEED = 2 * np.pi * 10e3 * 5.0 * 1.25  # 2π·f·Vp,out·margin (common practice, no source)
 
 

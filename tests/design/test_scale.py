@@ -40,15 +40,15 @@ def _script(name: str) -> ModuleType:
 
 # stages as data: every topology, with and without offset/noise limits, source, load
 STAGES: list[dict[str, Any]] = [
-    {"topology": "non-inverting", "gain": "10", "vin": "0.5Vpk", "freq": "20kHz",
+    {"tolerance": "0.1%", "topology": "non-inverting", "gain": "10", "vin": "0.5Vpk", "freq": "20kHz",
      "rails": "±12", "load": "2k", "offset-max": "50mV", "noise-max": "1mV"},
-    {"topology": "inverting", "gain": "5", "vin": "0.3Vpk", "freq": "100kHz", "rails": "+5/0",
+    {"tolerance": "0", "topology": "inverting", "gain": "5", "vin": "0.3Vpk", "freq": "100kHz", "rails": "+5/0",
      "load": "10k", "source": "100", "offset-max": "20mV", "noise-max": "300uV", "qty": "2"},
-    {"topology": "difference", "gain": "2", "vin": "1V", "freq": "1kHz", "rails": "±15",
+    {"tolerance": "0", "topology": "difference", "gain": "2", "vin": "1V", "freq": "1kHz", "rails": "±15",
      "offset-max": "5mV", "temp": "-40..85C", "margin": "1"},
-    {"topology": "follower", "vin": "1V", "freq": "100kHz", "rails": "±5",
+    {"tolerance": "0", "topology": "follower", "vin": "1V", "freq": "100kHz", "rails": "±5",
      "noise-max": "100uV", "gain-error": "0.1%"},
-    {"topology": "non-inverting", "gain": "100", "vin": "50mV", "freq": "50kHz",
+    {"tolerance": "0", "topology": "non-inverting", "gain": "100", "vin": "50mV", "freq": "50kHz",
      "rails": "±18", "load": "100"},
 ]
 N_PARTS = 400

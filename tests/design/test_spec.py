@@ -16,14 +16,14 @@ from picker.design.spec import Minimums, minimum_specs
 from tests.design.reference import OpAmp, ngspice_dc, ngspice_gains, stage_circuit, sympy_gain
 
 STAGES = [
-    Requirement("inverting", 10.0, 12.0, -12.0, 20e3, vin_pk=0.5, source_ohm=600.0, load_ohm=2e3),
+    Requirement("inverting", 10.0, 12.0, -12.0, 20e3, vin_pk=0.5, source_ohm=600.0, load_ohm=2e3, tolerance=0.0),
     Requirement("non-inverting", 20.0, 15.0, -15.0, 10e3, vout_pk=8.0, source_ohm=47e3,
-                load_ohm=10e3, gain_error=0.005),
+                load_ohm=10e3, gain_error=0.005, tolerance=0.0),
     Requirement("follower", 1.0, 5.0, -5.0, 50e3, vin_pk=2.0, source_ohm=100e3, load_ohm=1e3,
-                margin=1.5),
-    Requirement("follower", 1.0, 15.0, -15.0, 100e3, vin_pk=1.0, load_ohm=600.0),
+                margin=1.5, tolerance=0.0),
+    Requirement("follower", 1.0, 15.0, -15.0, 100e3, vin_pk=1.0, load_ohm=600.0, tolerance=0.0),
     Requirement("difference", 2.0, 15.0, -15.0, 10e3, vin_pk=1.0, source_ohm=100.0,
-                load_ohm=5e3, gain_error=0.02, margin=1.0),
+                load_ohm=5e3, gain_error=0.02, margin=1.0, tolerance=0.0),
 ]
 
 
@@ -77,7 +77,7 @@ def test_gbw_is_the_single_pole_bound_when_a0_is_large(req: Requirement) -> None
 
 
 def test_slew_and_current_by_hand() -> None:
-    req = Requirement("inverting", 10.0, 12.0, -12.0, 20e3, vin_pk=0.5, load_ohm=2e3)
+    req = Requirement("inverting", 10.0, 12.0, -12.0, 20e3, vin_pk=0.5, load_ohm=2e3, tolerance=0.0)
     s = minimum_specs(req)
     # by hand: 2π × 20 kHz × 5 V × 1.25 = 0.785 V/µs
     assert_allclose(s.minimum.slew_v_per_s, 2 * math.pi * 20e3 * 5 * 1.25, rtol=1e-12)

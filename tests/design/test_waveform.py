@@ -78,7 +78,7 @@ def test_clip_fact_of_the_trade() -> None:
     # common practice, no source: a gain-20 stage driven to an ideal 10 V peak on ±10 V
     # rails is clipped a little below the rails, flat-topped
     req = Requirement(topology="inverting", gain=20, rail_pos=10, rail_neg=-10, freq_hz=1e3,
-                      vout_pk=10, load_ohm=10e3)
+                      vout_pk=10, load_ohm=10e3, tolerance=0.0)
     got = waveforms(req, GP.frame())
     assert "clip" in got.limits(0)
     assert 8.0 < got.peak_pos[0] < 10.0 and -10.0 < got.peak_neg[0] < -8.0
@@ -131,7 +131,7 @@ def test_candidates_follow_the_ranking() -> None:
     frame = pd.read_csv(Path(__file__).parents[2] / "picker" / "data" / "demo_stockroom.csv",
                         index_col="label")
     req = Requirement(topology="inverting", gain=10, rail_pos=15, rail_neg=-15,
-                      freq_hz=20e3, vout_pk=10, load_ohm=2e3)
+                      freq_hz=20e3, vout_pk=10, load_ohm=2e3, tolerance=0.0)
     got = candidate_waveforms(req, frame, 6)
     sel = select(frame, req)
     ranked = [e.part for e in sel.accepted] + [e.part for e in sel.unverified] + [
