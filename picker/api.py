@@ -16,6 +16,7 @@ stage as it would be built, with its network designed from E24 values
 
 from __future__ import annotations
 
+import math
 from collections.abc import Mapping
 from dataclasses import dataclass
 from pathlib import Path
@@ -131,7 +132,11 @@ class PartReport:
 
     def to_json(self) -> dict[str, Any]:
         """``picker why --json``: part, spec, verdict and each check's record (SI)."""
+        from picker.checks.accuracy import phase_deg
+
+        phase = float(phase_deg(self.parts, self.spec)[0])
         return {"part": self.part, "spec": self.spec.to_json(), "verdict": self.verdict,
+                "phase_at_f_deg": phase if math.isfinite(phase) else None,
                 "checks": self.table.records(0)}
 
 

@@ -38,6 +38,7 @@ Kind = Literal[
     "count",
     "time",
     "amplitude",
+    "angle",
 ]
 
 KINDS: tuple[Kind, ...] = get_args(Kind)
@@ -85,6 +86,7 @@ _UNITS: dict[str, list[_Unit]] = {
     "price": [],
     "count": [],
     "time": [_Unit("s", 1)],
+    "angle": [_Unit("°", 1, prefix_ok=False), _Unit("deg", 1, prefix_ok=False)],
     "amplitude": [
         _Unit("Vpk", 1),
         _Unit("Vp", 1),
@@ -110,6 +112,7 @@ _WHAT: dict[str, str] = {
     "price": "a price (a plain number, e.g. 0.42)",
     "count": "a whole number (e.g. 25)",
     "time": "a time (e.g. 10ms)",
+    "angle": "an angle in degrees (e.g. 5deg, 2.5°)",
     "amplitude": "an amplitude with its form (e.g. 3Vpk, 6Vpp, 2.12Vrms; bare = peak)",
 }
 
@@ -311,6 +314,8 @@ def fmt(value: float | int | None, kind: Kind, prec: int = 3) -> str:
         return f"{_sig(v * 100, prec)}%"
     if kind == "temperature":
         return f"{_sig(v, prec)} °C"
+    if kind == "angle":
+        return f"{_sig(v, prec)}°"
     if kind == "price":
         return f"{v:.2f}"
     if kind == "count":

@@ -96,7 +96,7 @@ def _registry() -> tuple[Check, ...]:
     from picker.checks import accuracy, limits
 
     return (limits.SWING, limits.COMMON_MODE, limits.SLEW, accuracy.GAIN_ACCURACY,
-            limits.OUTPUT_CURRENT, limits.SUPPLY, accuracy.OFFSET, accuracy.NOISE,
+            accuracy.PHASE, limits.OUTPUT_CURRENT, limits.SUPPLY, accuracy.OFFSET, accuracy.NOISE,
             limits.STOCK)
 
 

@@ -148,8 +148,28 @@ def _gain_explain(s: Spec) -> list[Explained]:
     rows.append(Explained(
         "gbw_hz", "minimum gain-bandwidth product", gbw, "frequency",
         "GBW >= f·A0,min/√(L²/(1-ℓ)² - (1+L)²), L = (1 - e_dc)/e_dc: for the magnitude "
-        "error only (the phase shift at f is shown by why, not limited)", gbw_numbers))
+        "error only; the phase shift at f is shown, and limited only by --phase-error",
+        gbw_numbers))
+    rows.append(Explained(
+        "gbw_phase_rule", "GBW the phase rule would ask", ng * f / b.allowed, "frequency",
+        "GBW >= NG·f/e: the closed-loop pole 1/e times above f keeps the phase lag at f "
+        "below e radians (stricter than the magnitude rule; not applied unless --phase-error)",
+        f"{ng:.5g} × {fmt(f, 'frequency', 4)} / {b.allowed:.4g} = "
+        f"{fmt(ng * f / b.allowed, 'frequency', 4)}"))
     return rows
+
+
+def phase_deg(p: Parts, s: Spec) -> Array:
+    """Per part, the phase of the closed-loop gain at the top frequency relative to the
+    ideal stage's (0° or 180°), degrees; negative is a lag. NaN where A0 or GBW is blank.
+
+    arg G(j2πf) from the exact loop, G = (n0 + n1·A)/(d0 + d1·A), A = A0/(1 + jf·A0/GBW).
+    """
+    st = s.stage
+    sign = 1.0 if st.ideal_gain >= 0 else -1.0
+    with np.errstate(invalid="ignore"):
+        g = _loop(p, st).gain(open_loop(p["aol_v_per_v"], p["gbw_hz"], s.requirement.freq_hz))
+        return np.degrees(np.angle(g * sign))  # type: ignore[no-any-return]
 
 
 def _gain_detail(s: Spec, p: Parts, i: int) -> str:
@@ -158,9 +178,7 @@ def _gain_detail(s: Spec, p: Parts, i: int) -> str:
     f = req.freq_hz
     err_dc, err_f = (float(e[0]) for e in _errors(one, s, f))
     g_dc, g_f = (float(g[0]) for g in _gains(one, st, f))
-    sign = 1.0 if st.ideal_gain >= 0 else -1.0
-    g = _loop(one, st).gain(open_loop(one["aol_v_per_v"], one["gbw_hz"], f))
-    phase = float(np.degrees(np.angle(g * sign))[0])
+    phase = float(phase_deg(one, s)[0])
     pole = float(_pole(one, st)[0])
     b = s.budget
     return (f"DC {g_dc:.7g} V/V, at {fmt(f, 'frequency')} {g_f:.7g} V/V; with the resistors "
@@ -176,6 +194,41 @@ GAIN_ACCURACY = Check(
             "solution (A(s) = A0/(1 + s·A0/(2π·GBW)), Rin, Ro, source, load, network), "
             "w the resistor tolerance's gain spread",
     explain=_gain_explain, detail=_gain_detail)
+
+
+def _phase(p: Parts, s: Spec) -> CheckResult:
+    """|phase shift at f| <= --phase-error."""
+    assert s.requirement.phase_error_deg is not None
+    return result("phase", "angle", "<=", s.requirement.phase_error_deg,
+                  np.abs(phase_deg(p, s)))
+
+
+def _phase_explain(s: Spec) -> list[Explained]:
+    req, ng = s.requirement, s.noise_gain
+    lim = req.phase_error_deg
+    assert lim is not None
+    gbw = ng * req.freq_hz / math.tan(math.radians(lim))
+    return [
+        Explained("phase", "largest phase shift at f", lim, "angle", PHASE.formula,
+                  f"{fmt(lim, 'angle', 4)} = {fmt(lim, 'angle', 4)}"),
+        Explained("gbw_phase", "GBW that keeps the phase shift within it (single pole)", gbw,
+                  "frequency", "GBW >= NG·f/tan(φmax)",
+                  f"{ng:.5g} × {fmt(req.freq_hz, 'frequency', 4)} / tan({lim:g}°) = "
+                  f"{fmt(gbw, 'frequency', 4)}"),
+    ]
+
+
+def _phase_detail(s: Spec, p: Parts, i: int) -> str:
+    return (f"phase at {fmt(s.requirement.freq_hz, 'frequency')} "
+            f"{fmt(float(phase_deg(p.take([i]), s)[0]), 'angle', 4)} from the ideal")
+
+
+PHASE = Check(
+    name="phase", kind="angle", reads=("aol_v_per_v", "gbw_hz", "rin_ohm", "rout_ohm"),
+    run=_phase, needs=_gain_needs,
+    formula="|arg G(j2πf) - arg G_ideal| <= phase error, G exact from the nodal solution",
+    explain=_phase_explain, detail=_phase_detail,
+    applies=lambda s: s.requirement.phase_error_deg is not None)
 
 
 def _pole(p: Parts, st: Stage) -> Array:
@@ -299,4 +352,4 @@ NOISE = Check(
     applies=lambda s: s.requirement.noise_max_v is not None)
 
 
-__all__ = ["BOLTZMANN", "GAIN_ACCURACY", "NOISE", "OFFSET"]
+__all__ = ["BOLTZMANN", "GAIN_ACCURACY", "NOISE", "OFFSET", "PHASE", "phase_deg"]

@@ -42,6 +42,9 @@ _OPTIONS: tuple[tuple[str, str, Any, str], ...] = (
      "tolerance of the gain-setting resistors, inside the gain budget (default 1%)"),
     ("tolerance_rule", "--tolerance-rule", click.Choice(["worst", "rss"]),
      "how resistor tolerances add: worst case (default) or root-sum-square"),
+    ("phase_error", "--phase-error", QuantityParam("angle", positive=True),
+     "largest phase shift of the gain at --freq from the ideal, e.g. 5deg (default: shown, "
+     "not limited)"),
     ("offset_max", "--offset-max", str, "largest DC output error, e.g. 20mV (default: not checked)"),
     ("noise_max", "--noise-max", str,
      "largest output RMS noise, e.g. 100uV (default: not checked)"),

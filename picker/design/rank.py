@@ -69,6 +69,16 @@ class Selection:
     def cautions(self) -> list[str]:
         return self.spec.cautions
 
+    def phases(self, rows: Sequence[int]) -> list[float | None]:
+        """The phase shift of each row's closed-loop gain at the top frequency, degrees
+        from the ideal (None: unknown), computed for these rows only."""
+        from picker.checks.accuracy import phase_deg
+
+        if not len(rows):
+            return []
+        ph = phase_deg(self.parts.take(np.asarray(rows, dtype=np.intp)), self.spec)
+        return [None if not np.isfinite(x) else float(x) for x in ph.tolist()]
+
     def to_json(self, listed: int | None = None) -> dict[str, Any]:
         """The JSON shape of ``picker pick --json`` (SI base units).
 
@@ -87,10 +97,13 @@ class Selection:
         def items(entries: Sequence[Entry], extra: str | None) -> Iterator[dict[str, Any]]:
             for start in range(0, len(entries), 1000):
                 chunk = list(entries[start:start + 1000])
-                for e, checks in zip(chunk, t.records_for([e.row for e in chunk]), strict=True):
+                rows = [e.row for e in chunk]
+                phases = self.phases(rows)
+                for e, checks, ph in zip(chunk, t.records_for(rows), phases, strict=True):
                     item: dict[str, Any] = {"part": e.part}
                     if extra is not None:
                         item[extra] = list(getattr(e, extra))
+                    item["phase_at_f_deg"] = ph
                     item["checks"] = checks
                     yield item
 

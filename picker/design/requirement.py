@@ -58,6 +58,7 @@ KEYS: dict[str, str] = {
     "gain-error": "gain_error",
     "tolerance": "tolerance",
     "tolerance-rule": "tolerance_rule",
+    "phase-error": "phase_error_deg",
     "offset-max": "offset_max_v",
     "noise-max": "noise_max_v",
     "temp": "temp",
@@ -99,6 +100,7 @@ class Requirement:
     gain_error: float = 0.01
     tolerance: float = 0.01  # of the gain-setting resistors (the budget includes it)
     tolerance_rule: Literal["worst", "rss"] = "worst"  # worst case, or root-sum-square
+    phase_error_deg: float | None = None  # largest phase shift at f from the ideal, degrees
     offset_max_v: float | None = None
     noise_max_v: float | None = None
     temp_min_c: float = T_REF_C
@@ -378,6 +380,9 @@ def _build(values: Mapping[str, tuple[Any, str]]) -> Requirement:
             if rule not in ("worst", "rss"):
                 raise BadValue(name, raw, "is not a tolerance rule; use worst or rss")
             kw["tolerance_rule"] = rule
+        elif key == "phase-error":
+            kw["phase_error_deg"] = None if _optional(raw) else parse(
+                raw, "angle", name, allow_negative=False, allow_zero=False)
         elif key in ("offset-max", "noise-max"):
             kw[KEYS[key]] = None if _optional(raw) else parse(
                 _rms_stripped(raw), "voltage", name, allow_negative=False, allow_zero=False)

@@ -139,15 +139,18 @@ def pick_text(sel: Any, max_listed: int | None = None) -> str:
     if sel.accepted:
         rows = []
         listed = list(sel.accepted)[:max_listed]
-        for k, e in enumerate(listed, 1):
+        phases = sel.phases([e.row for e in listed])
+        for k, (e, ph) in enumerate(zip(listed, phases, strict=True), 1):
             price = parts["price"][e.row]
             rows.append([k, e.part, f"{e.margin:.3g}" if math.isfinite(e.margin) else "-",
-                         t.limiting(e.row), "-" if math.isnan(price) else f"{price:.2f}",
+                         t.limiting(e.row), fmt(ph, "angle"),
+                         "-" if math.isnan(price) else f"{price:.2f}",
                          _count(parts["qty"][e.row]), _count(parts["channels"][e.row])])
         shown = (f"{len(listed)}" if len(listed) == sel.accepted_total
                  else f"best {len(listed)} of {sel.accepted_total}")
         lines.append(f"Accepted ({shown}), by {order}:")
-        lines.append(tabulate(rows, headers=["#", "part", "margin", "limited by", "price",
+        lines.append(tabulate(rows, headers=["#", "part", "margin", "limited by", "phase at f",
+                                             "price",
                                              "qty", "ch"], disable_numparse=True))
     elif len(t) == 0:
         lines.append("Accepted: none; the stockroom has no parts (`picker parts import` adds some)")

@@ -71,8 +71,8 @@ def test_json_shape() -> None:
     assert set(js) == {"spec", "accepted", "rejected", "unverified"}
     assert set(js["spec"]) == {"signal_gain", "noise_gain", "margin", "min", "budget"}
     assert tuple(js["spec"]["min"]) == tuple(f.name for f in fields(Minimums))
-    assert set(js["accepted"][0]) == {"part", "checks"}
-    assert set(js["rejected"][0]) == {"part", "fails", "checks"}
+    assert set(js["accepted"][0]) == {"part", "phase_at_f_deg", "checks"}
+    assert set(js["rejected"][0]) == {"part", "fails", "phase_at_f_deg", "checks"}
     checks = js["accepted"][0]["checks"]
     assert list(checks) == ["swing", "common_mode", "slew", "gain_accuracy", "output_current",
                             "supply", "stock"]
