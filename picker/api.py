@@ -124,6 +124,7 @@ class PartReport:
     spec: Spec
     table: CheckTable
     parts: Parts
+    assumed: dict[str, float]  # values taken by --assume where the part is blank (SI)
 
     @property
     def verdict(self) -> str:
@@ -137,7 +138,7 @@ class PartReport:
         phase = float(phase_deg(self.parts, self.spec)[0])
         return {"part": self.part, "spec": self.spec.to_json(), "verdict": self.verdict,
                 "phase_at_f_deg": phase if math.isfinite(phase) else None,
-                "checks": self.table.records(0)}
+                "assumed": self.assumed, "checks": self.table.records(0)}
 
 
 def why(req: Requirement, part: str, store: Any) -> PartReport:
@@ -148,9 +149,11 @@ def why(req: Requirement, part: str, store: Any) -> PartReport:
     from picker.store import Condition
 
     store.get(part)  # NotFound, with a hint, when the label is not in the stockroom
-    parts = Parts(store.parts_frame(conditions=[Condition("label", "=", part)]))
+    parts, masks = Parts(store.parts_frame(conditions=[Condition("label", "=", part)])
+                         ).assuming(req.assume)
     s = spec(req)
-    return PartReport(part, s, run_checks(parts, s), parts)
+    assumed = {f: float(parts[f][0]) for f, m in masks.items() if m[0]}
+    return PartReport(part, s, run_checks(parts, s), parts, assumed)
 
 
 def design_network(req: Requirement, part: Mapping[str, Any] | None = None, *,

@@ -93,6 +93,22 @@ class Parts(Mapping[str, Array]):
         out._set(self.labels[idx], {k: v[idx] for k, v in self._cols.items()})
         return out
 
+    def assuming(self, values: Mapping[str, float]) -> tuple[Parts, dict[str, npt.NDArray[np.bool_]]]:
+        """These parts with ``values`` taken where a field is blank, and per field where
+        that happened (the user's explicit assumption; outputs mark it)."""
+        if not values:
+            return self, {}
+        cols = dict(self._cols)
+        masks = {}
+        for name, v in values.items():
+            col = self[name]
+            blank = np.isnan(col)
+            masks[name] = blank
+            cols[name] = np.where(blank, v, col)
+        out = object.__new__(Parts)
+        out._set(self.labels, cols)
+        return out, masks
+
     def row(self, i: int) -> dict[str, float]:
         """Every known column of part i as plain floats (NaN = unknown)."""
         return {k: float(v[i]) for k, v in self._cols.items()}

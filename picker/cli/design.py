@@ -122,4 +122,4 @@ def why(part: str, stage: dict[str, Any], as_json: bool, db: str | None) -> None
         click.echo(to_json(report.to_json()))
         _cautions_to_stderr(report.spec.cautions)
         return
-    click.echo(why_text(report.spec, report.table, report.parts))
+    click.echo(why_text(report.spec, report.table, report.parts, 0, report.assumed))

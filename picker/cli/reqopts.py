@@ -56,7 +56,7 @@ _OPTIONS: tuple[tuple[str, str, Any, str], ...] = (
      "pin the feedback resistor of the E-series network (default: designed, see picker net)"),
 )
 
-KEYS: tuple[str, ...] = tuple(name for name, *_ in _OPTIONS) + ("mains",)
+KEYS: tuple[str, ...] = tuple(name for name, *_ in _OPTIONS) + ("mains", "assume")
 
 
 def requirement_options(f: F) -> F:
@@ -70,6 +70,9 @@ def requirement_options(f: F) -> F:
     cmd: Any = wrapper
     cmd = click.option("--design", metavar="FILE", type=click.Path(dir_okay=False),
                        help="TOML design file with the same keys (options override it)")(cmd)
+    cmd = click.option("--assume", metavar="FIELD=VALUE", multiple=True,
+                       help="take this value where a part leaves the field blank, e.g. "
+                       "rout=100 (marked assumed in every output; repeat for more)")(cmd)
     cmd = click.option("--mains/--no-mains", default=None,
                        help="the input comes from mains (shows a safety caution)")(cmd)
     for name, opt, kind, text in reversed(_OPTIONS):

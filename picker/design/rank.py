@@ -60,6 +60,11 @@ class Selection:
     unverified: Sequence[Entry]
     nearest: list[Any] = field(default_factory=list)  # picker.design.misses.NearMiss
     accepted_total: int = 0  # accepted before --top
+    assumed: dict[str, np.ndarray] = field(default_factory=dict)  # field -> rows filled in
+
+    def assumed_for(self, row: int) -> dict[str, float]:
+        """The values assumed for one row (field -> SI value), by the user's --assume."""
+        return {f: float(self.parts[f][row]) for f, m in self.assumed.items() if m[row]}
 
     @property
     def requirement(self) -> Requirement:
@@ -104,6 +109,8 @@ class Selection:
                     if extra is not None:
                         item[extra] = list(getattr(e, extra))
                     item["phase_at_f_deg"] = ph
+                    if self.assumed:
+                        item["assumed"] = self.assumed_for(e.row)
                     item["checks"] = checks
                     yield item
 
@@ -146,6 +153,7 @@ def select(
         raise BadValue("--top", top, "must be at least 1")
     spec = minimum_specs(req)
     parts = parts_df if isinstance(parts_df, Parts) else Parts(parts_df)
+    parts, assumed = parts.assuming(req.assume)
     table = run_checks(parts, spec)
     fail, unknown = table.verdicts()
     margin = table.rank_margin()
@@ -169,7 +177,7 @@ def select(
     unverified = ordered(np.zeros(len(parts), dtype=bool) if strict else unknown & ~fail,
                          -margin)
     sel = Selection(spec, table, parts, by, strict, accepted, rejected, unverified,
-                    accepted_total=total)
+                    accepted_total=total, assumed=assumed)
     if not accepted and rejected and misses > 0:
         from picker.design.misses import nearest_misses
 

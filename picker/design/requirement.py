@@ -28,7 +28,7 @@ from __future__ import annotations
 import math
 import tomllib
 from collections.abc import Callable, Mapping
-from dataclasses import dataclass, field, fields, replace
+from dataclasses import MISSING, dataclass, field, fields, replace
 from pathlib import Path
 from typing import Any, Literal, get_args
 
@@ -67,6 +67,7 @@ KEYS: dict[str, str] = {
     "rf": "rf_ohm",
     "mains": "mains",
     "network": "network",
+    "assume": "assume",
 }
 
 Label = Callable[[str], str]
@@ -110,6 +111,9 @@ class Requirement:
     rf_ohm: float = 10e3
     rf_pinned: bool = False  # rf was given: the designed network keeps it
     network: Mapping[str, float] | None = field(default=None, hash=False)
+    # part values to take where a part leaves them blank (field -> SI value), by the
+    # user's explicit choice; every output marks them as assumed
+    assume: Mapping[str, float] = field(default_factory=dict, hash=False)
     mains: bool = False
 
     def __post_init__(self) -> None:
@@ -327,6 +331,40 @@ def _network(value: Any, name: str) -> dict[str, float]:
     return out
 
 
+#: Part fields a requirement may assume (technical values, not stock or text).
+ASSUMABLE = ("gbw_hz", "slew_v_per_s", "aol_v_per_v", "rin_ohm", "rout_ohm", "iout_a",
+             "ib_a", "ios_a", "vos_v", "drift_v_per_c", "en_v_per_rthz", "in_a_per_rthz",
+             "out_head_pos_v", "out_head_neg_v", "cm_head_pos_v", "cm_head_neg_v",
+             "supply_min_v", "supply_max_v", "channels")
+
+
+def _assume(value: Any, name: str) -> dict[str, float]:
+    """``rout=100,rin=1meg`` (or a TOML table, or a list of ``field=value``) -> SI values."""
+    from picker.store.records import convert, field_name
+
+    if isinstance(value, Mapping):
+        pairs = [(str(k), v) for k, v in value.items()]
+    else:
+        items = value if isinstance(value, list | tuple) else str(value).split(",")
+        pairs = []
+        for item in items:
+            key, eq, raw = str(item).partition("=")
+            if not eq or not key.strip() or not raw.strip():
+                raise BadValue(name, item, "is not field=value, e.g. --assume rout=100")
+            pairs.append((key.strip(), raw.strip()))
+    out: dict[str, float] = {}
+    for key, raw in pairs:
+        field_ = field_name(key, name)
+        if field_ not in ASSUMABLE:
+            raise BadValue(name, key, "cannot be assumed; assume a technical value such as "
+                           "rout, rin, gbw, iout or en")
+        v = convert(field_, raw, f"{name} {key}")
+        if not isinstance(v, int | float):
+            raise BadValue(name, raw, f"is not a value for {key}")
+        out[field_] = float(v)
+    return out
+
+
 def _build(values: Mapping[str, tuple[Any, str]]) -> Requirement:
     """Parse every (value, where) under its key and make the requirement."""
 
@@ -399,6 +437,8 @@ def _build(values: Mapping[str, tuple[Any, str]]) -> Requirement:
             kw["mains"] = _bool(raw, name)
         elif key == "network":
             kw["network"] = _network(raw, name)
+        elif key == "assume":
+            kw["assume"] = _assume(raw, name)
     if "rail_pos" not in kw:
         raise BadRequirement(f"{lab('rails')}: missing; give the supply rails, e.g. --rails ±12 "
                              "or --rails +5/0")
@@ -415,7 +455,8 @@ def _build(values: Mapping[str, tuple[Any, str]]) -> Requirement:
     # built without __post_init__ so that validation names each value where it was written
     req = object.__new__(Requirement)
     for f in fields(Requirement):
-        object.__setattr__(req, f.name, kw.get(f.name, f.default))
+        default = f.default_factory() if f.default_factory is not MISSING else f.default
+        object.__setattr__(req, f.name, kw.get(f.name, default))
     req.validate(lab)
     return req
 

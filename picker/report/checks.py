@@ -149,9 +149,14 @@ def pick_text(sel: Any, max_listed: int | None = None) -> str:
         shown = (f"{len(listed)}" if len(listed) == sel.accepted_total
                  else f"best {len(listed)} of {sel.accepted_total}")
         lines.append(f"Accepted ({shown}), by {order}:")
+        marks = [(e.part, sel.assumed_for(e.row)) for e in listed] if sel.assumed else []
+        marks = [(p, a) for p, a in marks if a]
         lines.append(tabulate(rows, headers=["#", "part", "margin", "limited by", "phase at f",
                                              "price",
                                              "qty", "ch"], disable_numparse=True))
+        for part, a in marks:
+            lines.append(f"  {part}: assumed " + ", ".join(
+                f"{k} = {_field_value(k, v)}" for k, v in a.items()) + " (blank in the stockroom)")
     elif len(t) == 0:
         lines.append("Accepted: none; the stockroom has no parts (`picker parts import` adds some)")
     else:
@@ -204,7 +209,15 @@ def _move(m: Any) -> str:
 
 # -- picker why -----------------------------------------------------------------------------
 
-def why_text(spec: Spec, table: CheckTable, parts: Parts, i: int = 0) -> str:
+def _field_value(name: str, value: float) -> str:
+    from picker.fields import BY_NAME
+
+    kind = BY_NAME[name].kind
+    return fmt(value, kind) if kind != "text" else str(value)
+
+
+def why_text(spec: Spec, table: CheckTable, parts: Parts, i: int = 0,
+             assumed: dict[str, float] | None = None) -> str:
     """``picker why``: every check of one part with its formula and its numbers."""
     from picker.checks import applicable
 
@@ -218,6 +231,9 @@ def why_text(spec: Spec, table: CheckTable, parts: Parts, i: int = 0) -> str:
         lines.append(f"    formula: {check.formula}")
         lines.append(f"    need: {need.numbers}")
         lines.append(f"    part: {check.detail(spec, parts, i)}")
+    if assumed:
+        lines.append("assumed (blank in the stockroom, taken from --assume): "
+                     + ", ".join(f"{k} = {_field_value(k, v)}" for k, v in assumed.items()))
     verdict = table.verdict(i)
     words = ("fails " + ", ".join(n for n, r in table.results.items() if r.status(i) == "fail")
              if verdict == "fail" else "unverified (some checks unknown)"

@@ -76,3 +76,35 @@ def test_blank_output_resistance_does_not_pass_where_a_known_one_fails() -> None
     assert sel.rejected[0].fails == ["gain_accuracy"]
     assert [(e.part, e.unknown) for e in sel.unverified] == [("blank Ro", ["gain_accuracy"])]
     assert select(frame, req, strict=True).accepted == []
+
+
+def test_assume_supplies_a_stated_value_and_marks_it() -> None:
+    """--assume rout=... fills the blank, is judged like the known value, and is marked."""
+    req = requirement_from(STAGES[0])
+    s = minimum_specs(req)
+    part: dict[str, Any] = {**roomy(s), "gbw_hz": 5e4, "aol_v_per_v": 1e5, "rout_ohm": np.nan}
+    frame = pd.DataFrame([part], index=["blank Ro"])
+    low = select(frame, req.with_changes(assume={"rout_ohm": 1.0}))
+    assert [e.part for e in low.accepted] == ["blank Ro"]
+    assert low.to_json()["accepted"][0]["assumed"] == {"rout_ohm": 1.0}
+    high = select(frame, req.with_changes(assume={"rout_ohm": 2e3}))
+    assert high.rejected[0].fails == ["gain_accuracy"]  # as the part with a known 2 kΩ
+
+
+def test_assume_on_the_command_line(demo_db: str) -> None:
+    from tests.cli.clirun import fails, run
+
+    stage = ["--topology", "non-inverting", "--gain", "2", "--vin", "0.5V", "--freq", "2kHz",
+             "--rails", "+5/0", "--load", "1k", "--tolerance", "0.1%", "--db", demo_db]
+    plain = run("pick", *stage, "--json", "--list", "all").stdout
+    assumed = run("pick", *stage, "--assume", "rout=50", "--json", "--list", "all").stdout
+    import json
+
+    a, b = json.loads(plain), json.loads(assumed)
+    marked = [i for i in b["accepted"] if i.get("assumed")]
+    assert all(i["assumed"] == {"rout_ohm": 50.0} for i in marked)
+    assert len(b["accepted"]) >= len(a["accepted"])
+    text = run("pick", *stage, "--assume", "rout=50").stdout
+    assert ("assumed rout_ohm = 50 Ω (blank in the stockroom)" in text) == bool(marked)
+    fails("pick", *stage, "--assume", "qty=5")
+    fails("pick", *stage, "--assume", "rout")
