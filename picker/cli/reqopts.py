@@ -49,7 +49,7 @@ _OPTIONS: tuple[tuple[str, str, Any, str], ...] = (
      "pin the feedback resistor of the E-series network (default: designed, see picker net)"),
 )
 
-KEYS: tuple[str, ...] = tuple(name for name, *_ in _OPTIONS) + ("mains",)
+KEYS: tuple[str, ...] = tuple(name for name, *_ in _OPTIONS) + ("mains", "light_load_swing")
 
 
 def requirement_options(f: F) -> F:
@@ -65,6 +65,9 @@ def requirement_options(f: F) -> F:
                        help="TOML design file with the same keys (options override it)")(cmd)
     cmd = click.option("--mains/--no-mains", default=None,
                        help="the input comes from mains (shows a safety caution)")(cmd)
+    cmd = click.option("--light-load-swing/--no-light-load-swing", default=None,
+                       help="check a part without output saturation resistances with its "
+                            "light-load headroom (printed as assumed)")(cmd)
     for name, opt, kind, text in reversed(_OPTIONS):
         cmd = click.option(opt, name, type=kind, default=None, help=text)(cmd)
     return cmd  # type: ignore[no-any-return]

@@ -63,6 +63,7 @@ KEYS: dict[str, str] = {
     "margin": "margin",
     "rf": "rf_ohm",
     "mains": "mains",
+    "light-load-swing": "light_load_swing",
     "network": "network",
 }
 
@@ -105,6 +106,7 @@ class Requirement:
     rf_pinned: bool = False  # rf was given: the designed network keeps it
     network: Mapping[str, float] | None = field(default=None, hash=False)
     mains: bool = False
+    light_load_swing: bool = False  # a part without Rsat swings as at light load (assumed)
 
     def __post_init__(self) -> None:
         self.validate(option_label)
@@ -376,8 +378,8 @@ def _build(values: Mapping[str, tuple[Any, str]]) -> Requirement:
         elif key == "rf":
             kw["rf_ohm"] = parse(raw, "resistance", name, allow_zero=False)
             kw["rf_pinned"] = True
-        elif key == "mains":
-            kw["mains"] = _bool(raw, name)
+        elif key in ("mains", "light-load-swing"):
+            kw[KEYS[key]] = _bool(raw, name)
         elif key == "network":
             kw["network"] = _network(raw, name)
     if "rail_pos" not in kw:
