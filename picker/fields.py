@@ -65,7 +65,30 @@ FIELDS: tuple[Field, ...] = (
 # Numbers the store computes from stored columns: read-only, never imported or edited.
 DERIVED: tuple[Field, ...] = (
     Field("available", "count", "available", "packages on hand not reserved for a project (qty - reserved)", "stock"),
+    Field("ib_tech_double_c", "temperature", "Ib x2 (tech) [°C]", "the input technology's default for ib_double_c (see TECH_IB_DOUBLE_C)", "input", signed=True),
 )
+
+#: The default Ib doubling interval by input technology (°C of warming; negative: the
+#: currents halve), used where ``ib_double_c`` is empty and printed as assumed. The first
+#: word the ``tech`` text contains (case-insensitive) decides. JFET and CMOS inputs: the
+#: bias current is gate leakage, a reverse-biased junction's current, which roughly doubles
+#: every 10 °C; bipolar inputs: the base current falls slowly as the transistors' current
+#: gain rises with temperature, about halving over 80 °C of warming (common practice,
+#: e.g. Franco, Design with Operational Amplifiers and Analog Integrated Circuits, 4th ed.,
+#: ch. 5, from memory).
+TECH_IB_DOUBLE_C: tuple[tuple[str, float], ...] = (
+    ("jfet", 10.0), ("cmos", 10.0), ("mos", 10.0), ("fet", 10.0), ("bipolar", -80.0),
+    ("bjt", -80.0),
+)
+
+
+def tech_ib_double_c(tech: object) -> float:
+    """The default Ib doubling interval for a ``tech`` text (NaN: no rule for it)."""
+    text = tech.lower() if isinstance(tech, str) else ""
+    for word, interval in TECH_IB_DOUBLE_C:
+        if word in text:
+            return interval
+    return float("nan")
 
 BY_NAME: dict[str, Field] = {f.name: f for f in (*FIELDS, *DERIVED)}
 # Numeric fields as the checks read them (Store.parts_columns): stored and derived.

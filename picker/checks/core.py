@@ -17,7 +17,7 @@ from typing import Any, Literal
 import numpy as np
 import numpy.typing as npt
 
-from picker.fields import NUMERIC
+from picker.fields import NUMERIC, tech_ib_double_c
 from picker.quantities import Kind
 
 Status = Literal["pass", "fail", "unknown"]
@@ -40,6 +40,9 @@ class Parts(Mapping[str, Array]):
         labels = frame.index.to_numpy(dtype=object)
         cols = {name: frame[name].to_numpy(dtype=float, na_value=np.nan)
                 for name in NUMERIC if name in frame.columns}
+        if "tech" in frame.columns and "ib_tech_double_c" not in cols:  # derived from text
+            cols["ib_tech_double_c"] = np.array(
+                [tech_ib_double_c(t) for t in frame["tech"].tolist()], dtype=float)
         self._set(labels, cols)
 
     @classmethod

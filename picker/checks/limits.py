@@ -16,7 +16,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from picker.checks import Check
-from picker.checks.core import Array, CheckResult, Coded, Parts, result, worse
+from picker.checks.core import ASSUMED, Array, CheckResult, Coded, Parts, result, worse
 from picker.circuit.output import reach
 from picker.design.spec import Explained
 from picker.quantities import fmt
@@ -32,7 +32,7 @@ def _v(x: float) -> str:
 # -- swing -------------------------------------------------------------------------------
 
 #: The note a part gets when its swing is taken from light-load figures (--light-load-swing).
-LIGHT_LOAD_ASSUMED = "assumed: light-load headroom, no Rsat"
+LIGHT_LOAD_ASSUMED = ASSUMED + "light-load headroom, no Rsat"
 
 
 def _peak_current(s: Spec) -> float:
