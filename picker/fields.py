@@ -40,16 +40,19 @@ FIELDS: tuple[Field, ...] = (
     Field("slew_v_per_s", "slew", "SR [V/µs]", "slew rate", "dynamics", positive=True),
     Field("aol_v_per_v", "gain", "Aol [dB]", "open-loop DC gain", "dynamics", positive=True),
     Field("rin_ohm", "resistance", "Rin [Ω]", "differential input resistance", "input", positive=True),
-    Field("ib_a", "current", "Ib [A]", "input bias current (magnitude)", "input"),
-    Field("ios_a", "current", "Ios [A]", "input offset current (magnitude)", "input"),
+    Field("ib_a", "current", "Ib [A]", "input bias current (magnitude) at 25 °C", "input"),
+    Field("ios_a", "current", "Ios [A]", "input offset current (magnitude) at 25 °C", "input"),
+    Field("ib_double_c", "temperature", "Ib x2 [°C]", "warming over which Ib and Ios double (negative: they halve); empty: the input technology's default", "input", signed=True, positive=True),
     Field("vos_v", "voltage", "Vos [V]", "input offset voltage, maximum", "input"),
     Field("drift_v_per_c", "drift", "drift [V/°C]", "input offset voltage drift", "input"),
     Field("cm_head_pos_v", "voltage", "CM head+ [V]", "input common-mode headroom below V+ (negative: beyond the rail)", "input", signed=True),
     Field("cm_head_neg_v", "voltage", "CM head- [V]", "input common-mode headroom above V- (negative: beyond the rail)", "input", signed=True),
     Field("rout_ohm", "resistance", "Ro [Ω]", "open-loop output resistance", "output"),
     Field("iout_a", "current", "Iout [A]", "output current limit", "output", positive=True),
-    Field("out_head_pos_v", "voltage", "out head+ [V]", "output headroom below V+ at the limit", "output", signed=True),
-    Field("out_head_neg_v", "voltage", "out head- [V]", "output headroom above V- at the limit", "output", signed=True),
+    Field("out_head_pos_v", "voltage", "out head+ [V]", "output headroom below V+ at light load", "output", signed=True),
+    Field("out_head_neg_v", "voltage", "out head- [V]", "output headroom above V- at light load", "output", signed=True),
+    Field("out_rsat_pos_ohm", "resistance", "Rsat+ [Ω]", "output saturation resistance toward V+: headroom+ grows by Rsat+ x the sourced current", "output"),
+    Field("out_rsat_neg_ohm", "resistance", "Rsat- [Ω]", "output saturation resistance toward V-: headroom- grows by Rsat- x the sunk current", "output"),
     Field("en_v_per_rthz", "vnoise", "en [V/√Hz]", "input voltage noise density (white)", "noise"),
     Field("in_a_per_rthz", "inoise", "in [A/√Hz]", "input current noise density (white)", "noise"),
     Field("price", "price", "price", "unit price, in the team's currency", "stock"),
@@ -62,7 +65,30 @@ FIELDS: tuple[Field, ...] = (
 # Numbers the store computes from stored columns: read-only, never imported or edited.
 DERIVED: tuple[Field, ...] = (
     Field("available", "count", "available", "packages on hand not reserved for a project (qty - reserved)", "stock"),
+    Field("ib_tech_double_c", "temperature", "Ib x2 (tech) [°C]", "the input technology's default for ib_double_c (see TECH_IB_DOUBLE_C)", "input", signed=True),
 )
+
+#: The default Ib doubling interval by input technology (°C of warming; negative: the
+#: currents halve), used where ``ib_double_c`` is empty and printed as assumed. The first
+#: word the ``tech`` text contains (case-insensitive) decides. JFET and CMOS inputs: the
+#: bias current is gate leakage, a reverse-biased junction's current, which roughly doubles
+#: every 10 °C; bipolar inputs: the base current falls slowly as the transistors' current
+#: gain rises with temperature, about halving over 80 °C of warming (common practice,
+#: e.g. Franco, Design with Operational Amplifiers and Analog Integrated Circuits, 4th ed.,
+#: ch. 5, from memory).
+TECH_IB_DOUBLE_C: tuple[tuple[str, float], ...] = (
+    ("jfet", 10.0), ("cmos", 10.0), ("mos", 10.0), ("fet", 10.0), ("bipolar", -80.0),
+    ("bjt", -80.0),
+)
+
+
+def tech_ib_double_c(tech: object) -> float:
+    """The default Ib doubling interval for a ``tech`` text (NaN: no rule for it)."""
+    text = tech.lower() if isinstance(tech, str) else ""
+    for word, interval in TECH_IB_DOUBLE_C:
+        if word in text:
+            return interval
+    return float("nan")
 
 BY_NAME: dict[str, Field] = {f.name: f for f in (*FIELDS, *DERIVED)}
 # Numeric fields as the checks read them (Store.parts_columns): stored and derived.

@@ -92,6 +92,12 @@ def synthetic_columns(n: int, seed: int = 7) -> dict[str, Any]:
     }
     for name, share in MISSING.items():
         cols[name] = np.where(rng.random(n) < share, np.nan, cols[name])
+    # fields of schema 0004, drawn from their own stream so the columns above stay as they were
+    rng2 = np.random.default_rng(seed + 1)
+    for name in ("out_rsat_pos_ohm", "out_rsat_neg_ohm"):
+        cols[name] = np.where(rng2.random(n) < 0.05, np.nan, _lognormal(rng2, 40.0, 0.8, n))
+    cols["ib_double_c"] = np.where(rng2.random(n) < 0.6, np.nan,
+                                   by_tech(-80.0, 10.0, 10.0) * rng2.uniform(0.8, 1.2, n))
     return cols
 
 

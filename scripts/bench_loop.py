@@ -105,11 +105,21 @@ def check_rows(cols: Mapping[str, list[float]], spec: Any) -> dict[str, list[flo
                                 + st.zp * ng ** 2)
         i_gain2 = st.rf ** 2 + (st.zp * ng) ** 2
     out["stock"] = []
+    g = st.amps_per_volt_out
     for i in range(n):
         row = {k: v[i] for k, v in cols.items()}
-        out["swing"].append(_worse(
-            _at_least(swing_need, req.rail_pos - row["out_head_pos_v"] - req.ref),
-            _at_least(swing_need, req.ref - (req.rail_neg + row["out_head_neg_v"]))))
+        sides = []
+        for light, rsat in ((req.rail_pos - row["out_head_pos_v"] - req.ref,
+                             row.get("out_rsat_pos_ohm", nan)),
+                            (req.ref - (req.rail_neg + row["out_head_neg_v"]),
+                             row.get("out_rsat_neg_ohm", nan))):
+            r = 0.0 if math.isnan(rsat) else rsat
+            has = light / (1 + r * g) if light * g > 0 else light
+            m = _at_least(swing_need, has)
+            if g > 0 and math.isnan(rsat) and not req.light_load_swing and not m < 1:
+                m = nan
+            sides.append(m)
+        out["swing"].append(_worse(*sides))
         out["common_mode"].append(_worse(
             _at_least(hi - req.ref, req.rail_pos - row["cm_head_pos_v"] - req.ref),
             _at_least(req.ref - lo, req.ref - (req.rail_neg + row["cm_head_neg_v"]))))
@@ -139,15 +149,25 @@ def check_rows(cols: Mapping[str, list[float]], spec: Any) -> dict[str, list[flo
         out["supply"].append(_worse(_at_least(span, row["supply_max_v"]),
                                     _at_most(span, row["supply_min_v"])))
         if offset_on:
-            total, unknown = 0.0, False
-            for c, x in zip(off_coefs, (row["vos_v"], row["drift_v_per_c"], row["ib_a"],
+            unknown = False
+            t2 = row.get("ib_double_c", nan)
+            if math.isnan(t2):  # the input technology's default (derived from tech)
+                t2 = row.get("ib_tech_double_c", nan)
+            totals = []
+            for t in (req.temp_min_c, req.temp_max_c):
+                k = 1.0 if t == 25.0 else 2 ** ((t - 25.0) / t2)
+                coefs = (ng, ng * abs(t - 25.0), off_coefs[2] * k, off_coefs[3] * k)
+                total = 0.0
+                for c, x in zip(coefs, (row["vos_v"], row["drift_v_per_c"], row["ib_a"],
                                         row["ios_a"]), strict=True):
-                if c == 0:
-                    continue
-                if math.isnan(x):
-                    unknown = True
-                else:
-                    total += c * abs(x)
+                    if c == 0 or (math.isnan(c) and not x):
+                        continue
+                    if math.isnan(x) or math.isnan(c):
+                        unknown = True
+                    else:
+                        total += c * abs(x)
+                totals.append(total)
+            total = max(totals)
             out["offset"].append(_at_most(off_need, nan if unknown and total <= off_need
                                           else total))
         if noise_on:

@@ -11,7 +11,10 @@ offset (worst case over signs; ideal op-amp around the network, e.g. Franco, Des
 with Operational Amplifiers and Analog Integrated Circuits, 4th ed., ch. 5, from
 memory): Vos and its drift appear at the output times the noise gain NG; the bias
 current of the inverting input flows through rf; that of the non-inverting input
-through zp, times NG. With Ib± = Ib ± Ios/2 the worst case is ``OFFSET.formula``.
+through zp, times NG. With Ib± = Ib ± Ios/2 the worst case is ``OFFSET.formula``,
+evaluated at both ends of the temperature range: Ib and Ios are the 25 °C figures scaled
+by 2^((T - 25 °C)/T2), T2 the part's doubling interval (``ib_double_c``) or, when blank,
+its input technology's default (picker.fields.TECH_IB_DOUBLE_C, printed as assumed).
 
 noise (white densities at the output, added in power; same text, ch. 7):
 
@@ -28,11 +31,22 @@ import math
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
+import numpy.typing as npt
 
 from picker.checks import Check
-from picker.checks.core import Array, CheckResult, Parts, result
+from picker.checks.core import (
+    ASSUMED,
+    Array,
+    CheckResult,
+    Coded,
+    Parts,
+    result,
+    unknown_unless_failing,
+)
 from picker.circuit.opamp import Loop, closed_loop_pole_hz, loop, open_loop
+from picker.design.requirement import T_REF_C
 from picker.design.spec import Explained, rin_matters
+from picker.fields import TECH_IB_DOUBLE_C
 from picker.quantities import fmt
 from picker.stages import Stage
 
@@ -257,11 +271,70 @@ def _offset_terms(p: Parts, s: Spec) -> dict[str, tuple[float, Array]]:
     }
 
 
+def _ends(s: Spec) -> tuple[float, ...]:
+    """The temperatures the offset is evaluated at: both ends of ``--temp``, °C."""
+    req = s.requirement
+    return tuple(dict.fromkeys((req.temp_min_c, req.temp_max_c)))
+
+
+def _warm(s: Spec) -> bool:
+    """Whether the bias currents are needed away from 25 °C (a range beyond 25 °C that
+    moves an Ib or Ios term)."""
+    terms = _offset_terms(Parts.from_columns(np.array([], dtype=object), {}), s)
+    return (any(t != T_REF_C for t in _ends(s))
+            and (terms["ib_a"][0] != 0 or terms["ios_a"][0] != 0))
+
+
+def _doubling(p: Parts) -> tuple[Array, npt.NDArray[np.bool_]]:
+    """Per part the Ib doubling interval (°C; the part's own, else its input technology's
+    default, picker.fields.TECH_IB_DOUBLE_C) and where the default was taken."""
+    own = p["ib_double_c"]
+    assumed = np.isnan(own)
+    return np.where(assumed, p["ib_tech_double_c"], own), assumed
+
+
+def _ib_factor(p: Parts, t_c: float) -> Array:
+    """Ib(T)/Ib(25 °C) = 2^((T - 25 °C)/T2) per part (NaN: no interval known)."""
+    t2, _ = _doubling(p)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        return np.exp2((t_c - T_REF_C) / t2)  # type: ignore[no-any-return]
+
+
+def _offset_at(p: Parts, s: Spec, t_c: float) -> Array:
+    """Worst-case output offset at ambient t_c, unknown terms counted as 0 (a lower bound):
+    Vos and drift·|T - 25 °C| times NG, Ib and Ios scaled to T."""
+    terms = _offset_terms(p, s)
+    ng, k = s.noise_gain, np.nan_to_num(_ib_factor(p, t_c), nan=0.0)
+    if t_c == T_REF_C:
+        k = np.ones(len(p))
+    total = _sum_known([(ng, terms["vos_v"][1]),
+                        (ng * abs(t_c - T_REF_C), terms["drift_v_per_c"][1])], len(p))
+    total += k * _sum_known([terms["ib_a"], terms["ios_a"]], len(p))
+    return total
+
+
 def _offset(p: Parts, s: Spec) -> CheckResult:
-    """Worst-case DC output offset against offset_max / margin (formula above)."""
+    """Worst-case DC output offset at either end of the temperature range against
+    offset_max / margin (formula in the module docstring; Ib and Ios at temperature)."""
     assert s.requirement.offset_max_v is not None
-    total = _sum_known(list(_offset_terms(p, s).values()), len(p))
-    return result("offset", "voltage", "<=", s.requirement.offset_max_v / s.margin, total)
+    total = np.max([_offset_at(p, s, t) for t in _ends(s)], axis=0)
+    note: Coded | str = ""
+    missing = np.zeros(len(p), dtype=bool)
+    if _warm(s):
+        t2, assumed = _doubling(p)
+        terms = _offset_terms(p, s)
+        moves = _sum_known([terms["ib_a"], terms["ios_a"]], len(p)) > 0
+        missing = np.isnan(t2) & moves  # Ib or Ios counts, and how it moves is unknown
+        used = assumed & ~np.isnan(t2) & moves
+        words = ("",) + tuple(f"{ASSUMED}Ib, Ios x2 every {v:g} °C (input technology's "
+                              "default)" for v in np.unique(t2[used]).tolist())
+        codes = np.zeros(len(p), dtype=np.int8)
+        for k, v in enumerate(np.unique(t2[used]).tolist(), start=1):
+            codes[used & (t2 == v)] = k
+        note = Coded(codes, words)
+    r = result("offset", "voltage", "<=", s.requirement.offset_max_v / s.margin, total,
+               note=note)
+    return unknown_unless_failing(r, missing)
 
 
 def _offset_needs(s: Spec) -> tuple[str, ...]:
@@ -279,22 +352,50 @@ def _limit_explain(name: str, title: str, limit: float | None, m: float,
 
 def _offset_explain(s: Spec) -> list[Explained]:
     req = s.requirement
-    return _limit_explain("offset", "allowed output offset", req.offset_max_v, s.margin,
+    rows = _limit_explain("offset", "allowed output offset", req.offset_max_v, s.margin,
                           OFFSET.formula, f" (ΔT = {req.drift_span_c:g} °C)")
+    ends = " and ".join(f"{t:g} °C" for t in _ends(s))
+    defaults = ", ".join(f"{w} {v:g} °C" for w, v in TECH_IB_DOUBLE_C)
+    rows.append(Explained(
+        "ib_temperature", "bias currents at temperature", None, "temperature",
+        "Ib(T) = Ib(25 °C)·2^((T - 25 °C)/T2), the same for Ios; T2 = ib_double_c, or the "
+        "input technology's default (printed as assumed)",
+        f"evaluated at {ends}; defaults by tech: {defaults}"))
+    return rows
 
 
 def _offset_detail(s: Spec, p: Parts, i: int) -> str:
-    terms = _offset_terms(p.take([i]), s)
-    shown = [f"{k.split('_')[0]} {fmt(c * abs(float(x[0])), 'voltage')}"
-             for k, (c, x) in terms.items() if c != 0]
-    return (f"NG {s.noise_gain:.4g}, rf {fmt(s.stage.rf, 'resistance')}, zp "
-            f"{fmt(s.stage.zp, 'resistance')}: " + " + ".join(shown))
+    one = p.take([i])
+    terms = _offset_terms(one, s)
+    worst = max(_ends(s), key=lambda t: float(_offset_at(one, s, t)[0]))
+    k = 1.0 if worst == T_REF_C else float(_ib_factor(one, worst)[0])
+    shown = []
+    for key, (c, x) in terms.items():
+        if c == 0:
+            continue
+        if key == "drift_v_per_c":
+            c = s.noise_gain * abs(worst - T_REF_C)
+        if key in ("ib_a", "ios_a"):
+            c = c * k
+        shown.append(f"{key.split('_')[0]} {fmt(c * abs(float(x[0])), 'voltage')}")
+    text = (f"NG {s.noise_gain:.4g}, rf {fmt(s.stage.rf, 'resistance')}, zp "
+            f"{fmt(s.stage.zp, 'resistance')}: at {worst:g} °C " + " + ".join(shown))
+    if _warm(s):
+        t2, assumed = (float(a[0]) for a in _doubling(one))
+        if math.isnan(t2):
+            text += "; Ib over temperature unknown (no ib_double_c, no rule for its tech)"
+        else:
+            text += (f"; Ib, Ios x{k:.4g} at {worst:g} °C (x2 every {t2:g} °C"
+                     + (", assumed: the input technology's default)" if assumed else ")"))
+    return text
 
 
 OFFSET = Check(
-    name="offset", kind="voltage", reads=("vos_v", "drift_v_per_c", "ib_a", "ios_a"),
+    name="offset", kind="voltage",
+    reads=("vos_v", "drift_v_per_c", "ib_a", "ios_a", "ib_double_c", "ib_tech_double_c"),
     run=_offset, needs=_offset_needs,
-    formula="NG·(|Vos| + |drift|·ΔT) + |Ib|·|rf - zp·NG| + Ios/2·(rf + zp·NG) <= offset max/m",
+    formula="max over T = both ends of --temp of NG·(|Vos| + |drift|·|T - 25 °C|) + "
+            "(|Ib|·|rf - zp·NG| + Ios/2·(rf + zp·NG))·2^((T - 25 °C)/T2) <= offset max/m",
     explain=_offset_explain, detail=_offset_detail,
     applies=lambda s: s.requirement.offset_max_v is not None)
 

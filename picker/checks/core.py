@@ -17,7 +17,7 @@ from typing import Any, Literal
 import numpy as np
 import numpy.typing as npt
 
-from picker.fields import NUMERIC
+from picker.fields import NUMERIC, tech_ib_double_c
 from picker.quantities import Kind
 
 Status = Literal["pass", "fail", "unknown"]
@@ -40,6 +40,9 @@ class Parts(Mapping[str, Array]):
         labels = frame.index.to_numpy(dtype=object)
         cols = {name: frame[name].to_numpy(dtype=float, na_value=np.nan)
                 for name in NUMERIC if name in frame.columns}
+        if "tech" in frame.columns and "ib_tech_double_c" not in cols:  # derived from text
+            cols["ib_tech_double_c"] = np.array(
+                [tech_ib_double_c(t) for t in frame["tech"].tolist()], dtype=float)
         self._set(labels, cols)
 
     @classmethod
@@ -166,9 +169,23 @@ class CheckResult:
         return [STATUS_WORDS[c] for c in self.code.tolist()]
 
     def record(self, i: int) -> dict[str, Any]:
-        """The JSON record of part i: status, need, has, margin (SI units)."""
-        return {"status": self.status(i), "need": _num(self.need[i]),
-                "has": _num(self.has[i]), "margin": _num(self.margin[i])}
+        """The JSON record of part i: status, need, has, margin (SI units), and
+        ``assumed`` when the verdict rests on a stated assumption (see ``assumed``)."""
+        out = {"status": self.status(i), "need": _num(self.need[i]),
+               "has": _num(self.has[i]), "margin": _num(self.margin[i])}
+        return _with_assumed(out, self.note[i])
+
+
+#: A note of the form ``"...; assumed: WHAT"`` marks a verdict resting on an assumption
+#: (a default or a figure the user opted in to); JSON records carry WHAT as ``assumed``.
+ASSUMED = "assumed: "
+
+
+def _with_assumed(record: dict[str, Any], note: str) -> dict[str, Any]:
+    k = note.find(ASSUMED)
+    if k >= 0:
+        record["assumed"] = note[k + len(ASSUMED):]
+    return record
 
 
 def status_codes(margin: Array) -> Codes:
@@ -321,11 +338,13 @@ class CheckTable:
         cols = {}
         for n, r in self.results.items():
             cols[n] = ([STATUS_WORDS[c] for c in r.code[idx].tolist()],
-                       _plain(r.need[idx]), _plain(r.has[idx]), _plain(r.margin[idx]))
-        return [{n: {"status": st[k], "need": need[k], "has": has[k], "margin": m[k]}
-                 for n, (st, need, has, m) in cols.items()} for k in range(len(idx))]
+                       _plain(r.need[idx]), _plain(r.has[idx]), _plain(r.margin[idx]),
+                       [r.note.words[c] for c in r.note.codes[idx].tolist()])
+        return [{n: _with_assumed({"status": st[k], "need": need[k], "has": has[k],
+                                   "margin": m[k]}, note[k])
+                 for n, (st, need, has, m, note) in cols.items()} for k in range(len(idx))]
 
 
-__all__ = ["STATUS_WORDS", "Array", "CheckResult", "CheckTable", "Coded", "Parts", "Status",
+__all__ = ["ASSUMED", "STATUS_WORDS", "Array", "CheckResult", "CheckTable", "Coded", "Parts", "Status",
            "at_least", "at_most", "merged", "result", "status_codes", "unknown_unless_failing",
            "worse"]

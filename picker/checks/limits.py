@@ -16,7 +16,8 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from picker.checks import Check
-from picker.checks.core import CheckResult, Parts, result, worse
+from picker.checks.core import ASSUMED, Array, CheckResult, Coded, Parts, result, worse
+from picker.circuit.output import reach
 from picker.design.spec import Explained
 from picker.quantities import fmt
 
@@ -30,19 +31,60 @@ def _v(x: float) -> str:
 
 # -- swing -------------------------------------------------------------------------------
 
+#: The note a part gets when its swing is taken from light-load figures (--light-load-swing).
+LIGHT_LOAD_ASSUMED = ASSUMED + "light-load headroom, no Rsat"
+
+
+def _peak_current(s: Spec) -> float:
+    """Output pin current at the peak, A: load plus feedback network (no margin: the
+    swing is checked at the stated amplitude)."""
+    return s.requirement.vout * s.stage.amps_per_volt_out
+
+
+def _swing_light_load(s: Spec) -> bool:
+    """Whether a part without Rsat is checked with its light-load headroom (opt-in)."""
+    return s.requirement.light_load_swing and s.stage.amps_per_volt_out > 0
+
+
+def _reach(p: Parts, s: Spec) -> tuple[Array, Array]:
+    """Distance from the reference the output reaches toward V+ and toward V- while
+    driving the stage at the peak (picker.circuit.output.reach, the waveform's model)."""
+    req, g = s.requirement, s.stage.amps_per_volt_out
+    up = reach((req.rail_pos - req.ref) - p["out_head_pos_v"], p["out_rsat_pos_ohm"], g)
+    down = reach((req.rail_neg - req.ref) + p["out_head_neg_v"], p["out_rsat_neg_ohm"], g)
+    return up, -down
+
+
 def _swing(p: Parts, s: Spec) -> CheckResult:
-    """Output must reach ref ± Vp,out: part's rail minus output headroom, per side."""
+    """Output must reach ref ± Vp,out driving the stage: rail minus the headroom at the
+    peak output current, per side."""
     req = s.requirement
-    need = s.minimum.swing_pos_v - req.ref
-    up = result("swing", "voltage", ">=", need, (req.rail_pos - req.ref) - p["out_head_pos_v"],
-                note="toward V+")
-    down = result("swing", "voltage", ">=", req.ref - s.minimum.swing_neg_v,
-                  (req.ref - req.rail_neg) - p["out_head_neg_v"], note="toward V-")
+    up_has, down_has = _reach(p, s)
+    notes: list[Coded | str] = ["toward V+", "toward V-"]
+    if _swing_light_load(s):
+        for k, (side, f) in enumerate((("toward V+", "out_rsat_pos_ohm"),
+                                       ("toward V-", "out_rsat_neg_ohm"))):
+            assumed = np.isnan(p[f])
+            notes[k] = Coded(assumed.astype(np.int8), (side, f"{side}; {LIGHT_LOAD_ASSUMED}"))
+    up = result("swing", "voltage", ">=", s.minimum.swing_pos_v - req.ref, up_has,
+                note=notes[0])
+    down = result("swing", "voltage", ">=", req.ref - s.minimum.swing_neg_v, down_has,
+                  note=notes[1])
     return worse(up, down)
+
+
+def _swing_needs(s: Spec) -> tuple[str, ...]:
+    """The light-load headrooms always; the saturation resistances when the stage draws
+    output current, unless the user opted in to light-load figures."""
+    heads = ("out_head_pos_v", "out_head_neg_v")
+    if s.stage.amps_per_volt_out > 0 and not s.requirement.light_load_swing:
+        return heads + ("out_rsat_pos_ohm", "out_rsat_neg_ohm")
+    return heads
 
 
 def _swing_explain(s: Spec) -> list[Explained]:
     req, mn = s.requirement, s.minimum
+    g = s.stage.amps_per_volt_out
     return [
         Explained("swing", "output swing, each side of the reference", req.vout, "voltage",
                   SWING.formula,
@@ -50,21 +92,38 @@ def _swing_explain(s: Spec) -> list[Explained]:
         Explained("swing_levels", "output levels to reach", None, "voltage", "ref ± Vp,out",
                   f"{_v(mn.swing_neg_v)} .. {_v(mn.swing_pos_v)} (rails {req.rail_neg:g} V "
                   f"/ {req.rail_pos:+g} V)"),
+        Explained("swing_current", "output current at the peak (headroom grows by Rsat × it)",
+                  _peak_current(s), "current", "I_pk = Vp,out/R_eff (load plus network)",
+                  f"{_v(req.vout)} / {fmt(math.inf if g == 0 else 1 / g, 'resistance', 4)} = "
+                  f"{fmt(_peak_current(s), 'current', 4)}"
+                  + (" (light-load headroom assumed where Rsat is unknown)"
+                     if _swing_light_load(s) else "")),
     ]
 
 
 def _swing_detail(s: Spec, p: Parts, i: int) -> str:
-    req = s.requirement
-    hp, hn = float(p["out_head_pos_v"][i]), float(p["out_head_neg_v"][i])
-    return (f"toward V+ ({_v(req.rail_pos)} - {_v(hp)}) - {_v(req.ref)} = "
-            f"{_v(req.rail_pos - hp - req.ref)}; toward V- {_v(req.ref)} - ({_v(req.rail_neg)} "
-            f"+ {_v(hn)}) = {_v(req.ref - req.rail_neg - hn)}")
+    req, ipk = s.requirement, _peak_current(s)
+    one = p.take([i])
+    up, down = (float(x[0]) for x in _reach(one, s))
+    sides = []
+    for name, rail, sign, head, rsat, got in (
+            ("V+", req.rail_pos, 1, "out_head_pos_v", "out_rsat_pos_ohm", up),
+            ("V-", req.rail_neg, -1, "out_head_neg_v", "out_rsat_neg_ohm", down)):
+        h, r = float(one[head][0]), float(one[rsat][0])
+        light = sign * (rail - req.ref) - h
+        r_text = ("Rsat unknown" + (", light-load headroom assumed" if req.light_load_swing
+                                    else "") if math.isnan(r) else f"Rsat {fmt(r, 'resistance')}")
+        sides.append(f"toward {name} {_v(light)} at light load (head {_v(h)}), {r_text}: "
+                     f"reaches {_v(got)} at {fmt(ipk, 'current')}")
+    return "; ".join(sides)
 
 
 SWING = Check(
-    name="swing", kind="voltage", reads=("out_head_pos_v", "out_head_neg_v"), run=_swing,
-    formula="each side (V+ - head+) - ref and ref - (V- + head-) >= need = Vp,out "
-            "(the output must reach ref ± Vp,out)",
+    name="swing", kind="voltage",
+    reads=("out_head_pos_v", "out_head_neg_v", "out_rsat_pos_ohm", "out_rsat_neg_ohm"),
+    run=_swing, needs=_swing_needs,
+    formula="each side (V± ∓ head± - ref)/(1 + Rsat±/R_eff) >= need = Vp,out (the output "
+            "must reach ref ± Vp,out while driving the load and network, headroom + Rsat·I)",
     explain=_swing_explain, detail=_swing_detail)
 
 

@@ -56,7 +56,8 @@ _OPTIONS: tuple[tuple[str, str, Any, str], ...] = (
      "pin the feedback resistor of the E-series network (default: designed, see picker net)"),
 )
 
-KEYS: tuple[str, ...] = tuple(name for name, *_ in _OPTIONS) + ("mains", "assume")
+KEYS: tuple[str, ...] = tuple(name for name, *_ in _OPTIONS) + ("mains", "assume",
+                                                             "light_load_swing")
 
 
 def requirement_options(f: F) -> F:
@@ -75,6 +76,9 @@ def requirement_options(f: F) -> F:
                        "rout=100 (marked assumed in every output; repeat for more)")(cmd)
     cmd = click.option("--mains/--no-mains", default=None,
                        help="the input comes from mains (shows a safety caution)")(cmd)
+    cmd = click.option("--light-load-swing/--no-light-load-swing", default=None,
+                       help="check a part without output saturation resistances with its "
+                            "light-load headroom (printed as assumed)")(cmd)
     for name, opt, kind, text in reversed(_OPTIONS):
         cmd = click.option(opt, name, type=kind, default=None, help=text)(cmd)
     return cmd  # type: ignore[no-any-return]

@@ -66,6 +66,7 @@ KEYS: dict[str, str] = {
     "margin": "margin",
     "rf": "rf_ohm",
     "mains": "mains",
+    "light-load-swing": "light_load_swing",
     "network": "network",
     "assume": "assume",
 }
@@ -115,6 +116,7 @@ class Requirement:
     # user's explicit choice; every output marks them as assumed
     assume: Mapping[str, float] = field(default_factory=dict, hash=False)
     mains: bool = False
+    light_load_swing: bool = False  # a part without Rsat swings as at light load (assumed)
 
     def __post_init__(self) -> None:
         self.validate(option_label)
@@ -433,8 +435,8 @@ def _build(values: Mapping[str, tuple[Any, str]]) -> Requirement:
         elif key == "rf":
             kw["rf_ohm"] = parse(raw, "resistance", name, allow_zero=False)
             kw["rf_pinned"] = True
-        elif key == "mains":
-            kw["mains"] = _bool(raw, name)
+        elif key in ("mains", "light-load-swing"):
+            kw[KEYS[key]] = _bool(raw, name)
         elif key == "network":
             kw["network"] = _network(raw, name)
         elif key == "assume":

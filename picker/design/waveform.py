@@ -6,7 +6,11 @@ real output stage added in the manner of the Boyle macromodel (IEEE JSSC SC-9(6)
 from memory):
 
 - slew: |dx/dt| <= SR (the internal node's rate; the output follows through Ro);
-- clip: x stays within [V- + headroom-, V+ - headroom+] (no integrator wind-up);
+- clip: the output stays within [V- + head-(I), V+ - head+(I)], the headroom growing
+  with the output current I through the saturation resistance (picker.circuit.output,
+  the swing check's own model; Rsat unknown: light-load figures). It is held as a clamp
+  on x at every sample (no integrator wind-up): the x at which the linear output sits
+  on that limit, x = (1 + Ro·Y)·vo,lim - Ro·J·u;
 - current: the output current into load plus network is at most ±Iout; beyond it the
   output is a current source and vo = (±Iout + J·u)/Y.
 
@@ -40,6 +44,7 @@ from typing import TYPE_CHECKING, Any, Literal, get_args
 import numpy as np
 import numpy.typing as npt
 
+from picker.circuit.output import reach
 from picker.design.loopstate import LoopState, loop_state
 from picker.stages import Stage, stage
 
@@ -53,7 +58,7 @@ LIMITS: tuple[Limit, ...] = get_args(Limit)
 #: part columns the simulation reads
 COLUMNS: tuple[str, ...] = (
     "gbw_hz", "slew_v_per_s", "aol_v_per_v", "rin_ohm", "rout_ohm", "iout_a",
-    "out_head_pos_v", "out_head_neg_v",
+    "out_head_pos_v", "out_head_neg_v", "out_rsat_pos_ohm", "out_rsat_neg_ohm",
 )
 #: without these a part cannot be simulated (its results are NaN)
 NEEDED: tuple[str, ...] = ("gbw_hz", "slew_v_per_s")
@@ -88,8 +93,8 @@ class Waves:
     t: Array  # (N,) time over the analysed periods, s
     ideal: Array  # (N,) ideal output, V
     vout: Array  # (P, N) predicted output, V
-    swing_hi: Array  # (P,) highest usable output (V+ minus headroom), V
-    swing_lo: Array  # (P,) lowest usable output, V
+    swing_hi: Array  # (P,) highest output reachable at the input's peak (headroom at that current), V
+    swing_lo: Array  # (P,) lowest output reachable at the input's trough, V
     peak_pos: Array
     peak_neg: Array
     vpp: Array
@@ -172,11 +177,14 @@ def simulate(
     settle = int(min(max(settle_periods, math.ceil(10 * f / max(slowest, 1e-300))), max_periods))
     u = vin * np.sin(2 * np.pi * np.arange(steps + 1) / steps)
     lo, hi = lo_abs - drive.ref_v, hi_abs - drive.ref_v
+    rsat = cols["out_rsat_pos_ohm"], cols["out_rsat_neg_ohm"]
     # start from the linear steady state at t = 0, x = Im(μ/(λ + jw))·vin, held within what
     # a full slew can reach (±SR·T/4) so a slew-bound part starts near its triangle
-    reach = sr / (4 * f)
-    x0 = np.clip(np.clip(-vin * mu * w / (lam**2 + w**2), -reach, reach), lo, hi)
-    x, _ = _run(ls, u, h, sr, iout, lo, hi, settle, max_periods, x0, known)
+    full_slew = sr / (4 * f)
+    x_lo0, x_hi0 = (b[:, 0] for b in _x_bounds(ls, lo, hi, rsat, u[:1]))
+    x0 = np.clip(np.clip(-vin * mu * w / (lam**2 + w**2), -full_slew, full_slew), x_lo0, x_hi0)
+    x_lo, x_hi = (b.T.copy() for b in _x_bounds(ls, lo, hi, rsat, u[1:]))
+    x, _ = _run(ls, u, h, sr, iout, (x_lo, x_hi), (lo, hi), settle, max_periods, x0, known)
 
     u_win = np.concatenate([u[-2:-1], np.tile(u[:-1], ANALYSED_PERIODS), u[:1]])
     vo, capped = _output(ls, x, u_win[None, :], iout)
@@ -186,7 +194,8 @@ def simulate(
     # only where the output follows it
     free = ~capped
     slewing = np.any((step >= sr[:, None] * h * (1 - 1e-9)) & free[:, :-1], axis=1)
-    clipping = np.any(((xs >= hi[:, None]) | (xs <= lo[:, None])) & free[:, 1:], axis=1)
+    b_lo, b_hi = _x_bounds(ls, lo, hi, rsat, u_win[1:])
+    clipping = np.any(((xs >= b_hi) | (xs <= b_lo)) & free[:, 1:], axis=1)
     limited = np.any(capped[:, 1:], axis=1)
     g = ls.gain([0.0, f])
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -201,13 +210,29 @@ def simulate(
     with np.errstate(divide="ignore", invalid="ignore"):
         thd = np.sqrt(np.sum(harm**2, axis=1)) / spec[:, k]
     nan = np.where(known, 0.0, np.nan)
+    top = np.sign(drive.ideal_gain) * vin  # the input when the output is at its peak
+    reach_hi = reach(hi, rsat[0], ls.y, ls.j * top) + drive.ref_v
+    reach_lo = reach(lo, rsat[1], ls.y, -ls.j * top) + drive.ref_v
     peak_pos, peak_neg = out.max(axis=1) + nan, out.min(axis=1) + nan
     return Waves(
         labels=labels, drive=drive, t=np.arange(n_an, dtype=float) * h,
         ideal=drive.ref_v + drive.ideal_gain * u_win[1:n_an + 1],
-        vout=out + nan[:, None], swing_hi=hi_abs, swing_lo=lo_abs, peak_pos=peak_pos,
+        vout=out + nan[:, None], swing_hi=reach_hi, swing_lo=reach_lo, peak_pos=peak_pos,
         peak_neg=peak_neg, vpp=peak_pos - peak_neg, thd=thd + nan, active=active, known=known,
     )
+
+
+def _x_bounds(ls: LoopState, lo: Array, hi: Array, rsat: tuple[Array, Array], u: Array
+              ) -> tuple[Array, Array]:
+    """The clamps on x, (P, len(u)): the x at which the linear output sits on the output's
+    limit toward V- and toward V+ at each input sample (module docstring)."""
+    c, uu = ls.column(), np.asarray(u, dtype=float)[None, :]
+    ju = c.j * uu
+    out = []
+    for level, r in ((lo, rsat[1]), (hi, rsat[0])):
+        vo = reach(level[:, None], r[:, None], c.y, ju)
+        out.append((1.0 + c.ro * c.y) * vo - c.ro * ju)
+    return out[0], out[1]
 
 
 def _output(ls: LoopState, x: Array, u: Array, iout: Array) -> tuple[Array, npt.NDArray[np.bool_]]:
@@ -220,12 +245,16 @@ def _output(ls: LoopState, x: Array, u: Array, iout: Array) -> tuple[Array, npt.
     return vo, lim
 
 
-def _run(ls: LoopState, u: Array, h: float, sr: Array, iout: Array, lo: Array, hi: Array,
-         settle: int, max_periods: int, x0: Array, watch: npt.NDArray[np.bool_]
-         ) -> tuple[Array, int]:
+def _run(ls: LoopState, u: Array, h: float, sr: Array, iout: Array,
+         clamps: tuple[Array, Array], light: tuple[Array, Array], settle: int,
+         max_periods: int, x0: Array, watch: npt.NDArray[np.bool_]) -> tuple[Array, int]:
     """Step the state period by period until settled, then over the analysed periods.
 
-    ``u`` holds one period of input samples plus the first of the next. Settled: after
+    ``u`` holds one period of input samples plus the first of the next; ``clamps``
+    (steps, P) each the clamps on x after each step; ``light`` (P,) each the light-load
+    limits, which also hold x while the output current is limited (the output does not
+    follow x then; as in the macromodel, the internal node stops at the light-load
+    level instead of winding up). Settled: after
     at least ``settle`` periods, no sample moved by more than 1e-4 of the part's
     amplitude (plus 1e-9 of its swing) from one period to the next (parts in ``watch``;
     the others have no prediction). Returns x over the
@@ -233,6 +262,8 @@ def _run(ls: LoopState, u: Array, h: float, sr: Array, iout: Array, lo: Array, h
     and the number of periods run before them.
     """
     lam, mu = ls.lam, ls.mu
+    lo, hi = clamps
+    lo_light, hi_light = light
     phi1, phi2 = _phi(lam * h)
     e_lin, a1_lin, a2_lin = np.exp(-lam * h), mu * h * phi1, mu * h * phi2
     lam_c, mu_c, nu_c = ls.limited_coeffs(iout)
@@ -256,18 +287,23 @@ def _run(ls: LoopState, u: Array, h: float, sr: Array, iout: Array, lo: Array, h
             keep[i] = x
             np.multiply(e_lin, x, out=x1)
             np.add(x1, drive_lin[i], out=x1)
+            lim = None
             if any_limit:
                 io = k_io * x - io_u[i]
                 lim = np.abs(io) > iout
                 if lim.any():
                     xc = e_c * x + drive_c[i] + np.sign(io) * n1_c
                     np.copyto(x1, xc, where=lim)
+                else:
+                    lim = None
             np.subtract(x1, x, out=tmp)  # the step, capped by the slew rate
             np.minimum(tmp, hi_d, out=tmp)
             np.maximum(tmp, lo_d, out=tmp)
             x = x + tmp
-            np.minimum(x, hi, out=x)  # and the state held within the swing
-            np.maximum(x, lo, out=x)
+            np.minimum(x, hi[i], out=x)  # and the state held within the swing
+            np.maximum(x, lo[i], out=x)
+            if lim is not None:
+                np.copyto(x, np.clip(x, lo_light, hi_light), where=lim)
         return x
 
     x, p = x0, len(x0)
@@ -279,7 +315,7 @@ def _run(ls: LoopState, u: Array, h: float, sr: Array, iout: Array, lo: Array, h
         if done >= settle:
             moved = np.max(np.abs(cur - prev), axis=0) if done > 1 else np.full(p, np.inf)
             size = np.max(np.abs(cur), axis=0)
-            still = (moved > 1e-4 * size + 1e-9 * (hi - lo)) & watch
+            still = (moved > 1e-4 * size + 1e-9 * (hi_light - lo_light)) & watch
             if not still.any() or done >= max_periods:
                 break
         cur, prev = prev, cur

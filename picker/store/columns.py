@@ -14,7 +14,7 @@ from __future__ import annotations
 from collections.abc import Sequence
 from typing import TYPE_CHECKING, Any
 
-from picker.fields import NUMERIC
+from picker.fields import NUMERIC, TECH_IB_DOUBLE_C
 
 if TYPE_CHECKING:
     import numpy as np
@@ -79,6 +79,12 @@ def column(name: str) -> Any:
 
     if name == "available":
         return (parts.c.qty - parts.c.reserved).label("available")
+    if name == "ib_tech_double_c":  # picker.fields.tech_ib_double_c, in SQL
+        from sqlalchemy import case, func, literal
+
+        tech = func.lower(func.coalesce(parts.c.tech, ""))
+        return case(*[(tech.like(f"%{word}%"), literal(v)) for word, v in TECH_IB_DOUBLE_C],
+                    else_=None).label(name)
     return parts.c[name]
 
 

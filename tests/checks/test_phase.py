@@ -72,6 +72,7 @@ def test_phase_error_limit_at_the_single_pole_boundary() -> None:
     for k in (1.02, 0.98):
         rows[f"k={k}"] = {"slew_v_per_s": 1e9, "gbw_hz": k * boundary, "aol_v_per_v": 1e12,
                           "rin_ohm": 1e15, "rout_ohm": 0.0, "out_head_pos_v": 0.0,
+                          "out_rsat_pos_ohm": 0.0, "out_rsat_neg_ohm": 0.0,
                           "out_head_neg_v": 0.0, "cm_head_pos_v": 0.0, "cm_head_neg_v": 0.0,
                           "iout_a": 1.0, "supply_min_v": 1.0, "supply_max_v": 100.0,
                           "qty": 1.0, "channels": 1.0}

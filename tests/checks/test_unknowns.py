@@ -40,7 +40,8 @@ def roomy(s: Spec) -> dict[str, float]:
     mn = s.minimum
     return {"slew_v_per_s": 10 * mn.slew_v_per_s, "gbw_hz": 1e3 * (mn.gbw_hz or 1e6),
             "aol_v_per_v": 1e9, "rin_ohm": 1e15, "rout_ohm": 1.0,
-            "out_head_pos_v": 0.0, "out_head_neg_v": 0.0, "cm_head_pos_v": 0.0,
+            "out_head_pos_v": 0.0, "out_head_neg_v": 0.0, "out_rsat_pos_ohm": 1.0,
+            "out_rsat_neg_ohm": 1.0, "ib_double_c": 10.0, "cm_head_pos_v": 0.0,
             "cm_head_neg_v": 0.0, "iout_a": 10 * mn.iout_a + 1e-3,
             "supply_min_v": 0.5 * mn.supply_span_v, "supply_max_v": 2 * mn.supply_span_v,
             "vos_v": 1e-6, "drift_v_per_c": 1e-9, "ib_a": 1e-12, "ios_a": 1e-13,

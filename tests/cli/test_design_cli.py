@@ -135,7 +135,8 @@ def test_pick_lists_only_the_closest_rejections(db: str) -> None:
     n_rejected = len(full["rejected"])
     assert n_rejected > 3
     short = run("pick", *stage, "--list", "3").stdout
-    listed = [ln.strip() for ln in short.splitlines() if ln.startswith("  ") and not ln.startswith("    ")]
+    section = short.split("\nRejected", 1)[1]
+    listed = [ln.strip() for ln in section.splitlines() if ln.startswith("  ") and not ln.startswith("    ")]
     names = [r["part"] for r in full["rejected"]]
     assert listed[:3] == names[:3]  # the closest first, in the same order as the JSON
     assert f"and {n_rejected - 3} more rejected" in short

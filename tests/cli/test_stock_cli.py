@@ -144,10 +144,10 @@ def test_an_old_stockroom_is_refused_until_upgraded(tmp_path: Path) -> None:
     first_schema_with_rows(f"sqlite:///{db}").dispose()
     res = run("stock", "log", "--db", db, ok=False)
     assert res.exit_code == 2
-    assert "has schema 0001, this picker needs 0003" in res.stderr
+    assert "has schema 0001, this picker needs 0004" in res.stderr
     assert "`picker db backup FILE`, then run `picker db upgrade`" in res.stderr
     run("db", "backup", str(tmp_path / "before-upgrade.db"), "--db", db)  # as advised
-    assert "schema 0001 -> 0003" in run("db", "upgrade", "--db", db).stdout
+    assert "schema 0001 -> 0004" in run("db", "upgrade", "--db", db).stdout
     assert "took 1 of bip-gp-a" in run("stock", "take", "bip-gp-a", "1", "--for", "p",
                                        "--db", db).stdout
 

@@ -10,6 +10,13 @@ model. The op-amp is
   dynamics capped at ±SR;
 - an output limiter on x: a stiff conductance (1e12 S) past each swing limit;
 - the output: x behind Ro, its current held within ±Iout by a behavioural source.
+- with saturation resistances given (``out_rsat_*``): the output stage's own limit, the
+  source ``V+ - head+`` behind Rsat+ (and ``V- + head-`` behind Rsat-): the output current
+  is also at most ``(V+ - head+ - v(out))/Rsat+`` sourced (at most
+  ``(v(out) - V- - head-)/Rsat-`` sunk), so the level reached falls linearly with the
+  current; x's own limiter then sits Ro·Iout further out, so the stage limit decides.
+  Without them the model is the one above, whose output reaches ``V+ - head+ - Ro·I``
+  (x clamped behind Ro): for picker that is Rsat = Ro (``Part.frame``).
 
 Small-signal (.ac) the clamps are inactive and the model is the single-pole VCVS with
 Rin and Ro. SPICE reads ``M`` as milli, so numbers are written in plain exponent form.
@@ -40,11 +47,17 @@ class Part:
     iout_a: float
     out_head_pos_v: float
     out_head_neg_v: float
+    out_rsat_pos_ohm: float | None = None
+    out_rsat_neg_ohm: float | None = None
 
     def frame(self, label: str = "ref-part"):  # type: ignore[no-untyped-def]
         import pandas as pd
 
-        return pd.DataFrame([self.__dict__], index=[label])
+        d = dict(self.__dict__)
+        for k in ("out_rsat_pos_ohm", "out_rsat_neg_ohm"):
+            if d[k] is None:  # x clamped behind Ro: the headroom grows by Ro·I
+                d[k] = self.rout_ohm
+        return pd.DataFrame([d], index=[label])
 
 
 def _n(v: float) -> str:
@@ -92,6 +105,13 @@ def netlist(req: Requirement, part: Part, control: list[str], *, ac: bool,
     wp = wu / part.aol_v_per_v
     hi = req.rail_pos - part.out_head_pos_v
     lo = req.rail_neg + part.out_head_neg_v
+    rp, rn = part.out_rsat_pos_ohm, part.out_rsat_neg_ohm
+    io = f"(v(x)-v(out))/{_n(part.rout_ohm)}"
+    if rp is not None and rn is not None:
+        io = f"max(min({io}, ({_n(hi)}-v(out))/{_n(rp)}), ({_n(lo)}-v(out))/{_n(rn)})"
+        x_hi, x_lo = hi + part.rout_ohm * part.iout_a, lo - part.rout_ohm * part.iout_a
+    else:
+        x_hi, x_lo = hi, lo
     body = [
         "* picker waveform reference: behavioural op-amp macromodel",
         f"Vref ref 0 DC {_n(req.ref)}",
@@ -100,9 +120,8 @@ def netlist(req: Requirement, part: Part, control: list[str], *, ac: bool,
         "Cx x 0 1",
         f"Bint 0 x I = min(max({_n(wu)}*v(vp,vn) - {_n(wp)}*(v(x)-v(ref)), "
         f"-{_n(part.slew_v_per_s)}), {_n(part.slew_v_per_s)})",
-        f"Bclamp x 0 I = 1e12*(uramp(v(x)-{_n(hi)}) - uramp({_n(lo)}-v(x)))",
-        f"Bo 0 out I = min(max((v(x)-v(out))/{_n(part.rout_ohm)}, -{_n(part.iout_a)}), "
-        f"{_n(part.iout_a)})",
+        f"Bclamp x 0 I = 1e12*(uramp(v(x)-{_n(x_hi)}) - uramp({_n(x_lo)}-v(x)))",
+        f"Bo 0 out I = min(max({io}, -{_n(part.iout_a)}), {_n(part.iout_a)})",
         ".options reltol=1e-6 abstol=1e-12 vntol=1e-9",
         ".control", *control, ".endc", ".end",
     ]

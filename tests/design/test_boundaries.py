@@ -35,7 +35,8 @@ def comfortable(s: Spec) -> dict[str, float]:
     return {
         "slew_v_per_s": 10 * mn.slew_v_per_s, "gbw_hz": 2 * mn.gbw_hz,
         "aol_v_per_v": 1e9, "rin_ohm": 1e15, "rout_ohm": 0.0,
-        "out_head_pos_v": 0.0, "out_head_neg_v": 0.0, "cm_head_pos_v": 0.0, "cm_head_neg_v": 0.0,
+        "out_head_pos_v": 0.0, "out_head_neg_v": 0.0, "out_rsat_pos_ohm": 0.0,
+        "out_rsat_neg_ohm": 0.0, "cm_head_pos_v": 0.0, "cm_head_neg_v": 0.0,
         "iout_a": 10 * mn.iout_a + 1e-3,
         "supply_min_v": 0.5 * mn.supply_span_v, "supply_max_v": 2 * mn.supply_span_v,
         "vos_v": 0.0, "drift_v_per_c": 0.0, "ib_a": 0.0, "ios_a": 0.0,

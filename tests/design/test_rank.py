@@ -23,6 +23,7 @@ SLEW_NEED = 2 * np.pi * 10e3 * 5.0 * 1.25  # 2π·f·Vp,out·margin (common prac
 def part(**changes: float) -> dict[str, float]:
     base = {"slew_v_per_s": 10e6, "gbw_hz": 20e6, "aol_v_per_v": 1e6, "rin_ohm": 1e12,
             "rout_ohm": 50.0, "out_head_pos_v": 1.0, "out_head_neg_v": 1.0,
+            "out_rsat_pos_ohm": 20.0, "out_rsat_neg_ohm": 20.0,
             "cm_head_pos_v": 1.0, "cm_head_neg_v": 1.0, "iout_a": 0.03, "supply_min_v": 5.0,
             "supply_max_v": 36.0, "qty": 10.0, "channels": 1.0, "price": 1.0}
     return {**base, **changes}
