@@ -152,3 +152,15 @@ def test_any_name_beside_the_database_succeeds_or_is_one_line(
     if result.exit_code == 2:
         assert len(result.stderr.strip().splitlines()) == 1, result.stderr
     assert checksum(db) == before
+
+
+def test_a_plot_cannot_replace_the_database(tmp_path: Path) -> None:
+    db = tmp_path / "stock.db"
+    before = make_db(db)
+    stage = ["bip-gp-a", "--topology", "non-inverting", "--gain", "20", "--vin", "0.25V",
+             "--freq", "20kHz", "--rails", "±12", "--db", str(db)]
+    for target in (db, Path(str(db) + "-wal")):
+        fails("bode", *stage, "--png", str(target))
+    assert checksum(db) == before
+    run("bode", *stage, "--png", str(tmp_path / "bode.png"))
+    assert (tmp_path / "bode.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"  # PNG signature
