@@ -10,7 +10,7 @@ from typing import Any
 import click
 
 from picker.cli.params import db_option, format_option, open_store
-from picker.errors import BadValue
+from picker.errors import BadValue, Conflict
 
 _WHERE = re.compile(r"^\s*([A-Za-z_]+)\s*(>=|<=|!=|=|>|<|~)\s*(.+?)\s*$")
 
@@ -192,7 +192,7 @@ def import_(file: Path, update: bool, blank_clears: bool, dry_run: bool,
     from picker.store.csvio import parse_csv, read_text
 
     if blank_clears and not update:
-        raise BadValue("--blank-clears", "", "only applies with --update")
+        raise Conflict("--blank-clears only applies with --update; add --update or leave it out")
     records = parse_csv(read_text(file), str(file), blank_clears=blank_clears)
     store = open_store(db)
     if len(records) > 5_000 and sys.stderr.isatty() and not dry_run:
