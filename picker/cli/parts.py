@@ -10,7 +10,7 @@ from typing import Any
 import click
 
 from picker.cli.params import db_option, format_option, open_store
-from picker.errors import BadValue
+from picker.errors import BadValue, Conflict
 
 _WHERE = re.compile(r"^\s*([A-Za-z_]+)\s*(>=|<=|!=|=|>|<|~)\s*(.+?)\s*$")
 
@@ -92,7 +92,7 @@ def list_(wheres: tuple[str, ...], in_stock: bool, columns: str | None, fmt: str
     elif fmt == "csv":
         from picker.store.csvio import write_csv
 
-        write_csv(rows, sys.stdout)
+        write_csv(rows, sys.stdout, cols)  # only the columns shown: no blank columns
     else:
         click.echo(table(rows, cols))
         click.echo(f"{len(rows)} part(s)", err=True)
@@ -173,29 +173,42 @@ def remove(label: str, yes: bool, db: str | None) -> None:
 
 @parts.command("import")
 @click.argument("file", type=click.Path(dir_okay=False, path_type=Path))
-@click.option("--update", is_flag=True, help="overwrite parts whose label already exists")
-@click.option("--dry-run", is_flag=True, help="check every row and report, write nothing")
+@click.option("--update", is_flag=True,
+              help="change parts whose label already exists: only the columns in the file, "
+              "and a blank cell leaves its field as it is")
+@click.option("--blank-clears", is_flag=True,
+              help="with --update, a blank cell makes its field unknown (a blank qty: 0)")
+@click.option("--dry-run", is_flag=True,
+              help="check every row and print what would change, field by field; write nothing")
 @db_option
-def import_(file: Path, update: bool, dry_run: bool, db: str | None) -> None:
+def import_(file: Path, update: bool, blank_clears: bool, dry_run: bool,
+            db: str | None) -> None:
     """Import parts from a CSV file: all rows or none.
 
     Every cell is checked first; any bad cell is reported as `row N, column X: problem`
     and nothing is written.
     """
+    from picker.report.tables import change_lines
     from picker.store.csvio import parse_csv, read_text
 
-    records = parse_csv(read_text(file), str(file))
+    if blank_clears and not update:
+        raise Conflict("--blank-clears only applies with --update; add --update or leave it out")
+    records = parse_csv(read_text(file), str(file), blank_clears=blank_clears)
     store = open_store(db)
-    if len(records) > 5_000 and sys.stderr.isatty():
+    if len(records) > 5_000 and sys.stderr.isatty() and not dry_run:
         with click.progressbar(length=len(records), label="importing", file=sys.stderr) as bar:
             report = store.import_records(records, update=update, dry_run=dry_run,
                                           progress=bar.update, by=_who() if update else "")
     else:
         report = store.import_records(records, update=update, dry_run=dry_run,
                                       by=_who() if update else "")
+    if dry_run:
+        for line in change_lines(report.changes):
+            click.echo(line)
     verb = "would add" if dry_run else "added"
     click.echo(f"{verb} {report.added} and {'would update' if dry_run else 'updated'} "
-               f"{report.updated} part(s) from {file}")
+               f"{report.updated} part(s) from {file} "
+               f"({len(report.changes)} field(s) {'would change' if dry_run else 'changed'})")
 
 
 @parts.command()
@@ -204,18 +217,14 @@ def import_(file: Path, update: bool, dry_run: bool, db: str | None) -> None:
 def export(file: str, db: str | None) -> None:
     """Export every part as CSV (to FILE, or stdout); it imports back identically."""
     from picker.store.csvio import write_csv
+    from picker.store.outfile import database_files, replacing
 
-    rows = open_store(db).export_rows()
+    store = open_store(db)
+    rows = store.export_rows()
     if file == "-":
         write_csv(rows, sys.stdout)
         return
-    path = Path(file)
-    tmp = path.with_name(path.name + ".part")
-    try:
+    with replacing(Path(file), database_files(store.url)) as tmp:
         with tmp.open("w", encoding="utf-8", newline="") as out:
             n = write_csv(rows, out)
-        tmp.replace(path)
-    except OSError as exc:
-        tmp.unlink(missing_ok=True)
-        raise BadValue("FILE", file, f"cannot be written ({exc.strerror})") from None
     click.echo(f"exported {n} part(s) to {file}", err=True)

@@ -78,7 +78,7 @@ def wave(part: str | None, stage: dict[str, Any], top: int | None, png: str | No
     if png:
         from picker.report.plots import save_png, wave_figure
 
-        save_png(wave_figure(waves, 0, pixels), png)
+        save_png(wave_figure(waves, 0, pixels), png, _db_files(db))
     _emit(waves.summary(0), lambda: wave_text(waves, 0, req), png, as_json, req.cautions)
 
 
@@ -94,7 +94,7 @@ def _top(req: Any, n: int, png: str | None, pixels: tuple[int, int], as_json: bo
 
         shown = [k for k in range(len(cands.status)) if cands.waves.known[k]]
         names = [f"{k + 1}. {cands.waves.labels[k]} ({cands.status[k]})" for k in shown]
-        save_png(grid_figure(cands.waves, shown, pixels, names=names), png)
+        save_png(grid_figure(cands.waves, shown, pixels, names=names), png, _db_files(db))
     if as_json:
         click.echo(to_json(candidates_json(cands)))
     else:
@@ -132,5 +132,13 @@ def bode(part: str, stage: dict[str, Any], png: str | None, size: str | None, as
     if png:
         from picker.report.plots import bode_figure, save_png
 
-        save_png(bode_figure(resp, 0, pixels), png)
+        save_png(bode_figure(resp, 0, pixels), png, _db_files(db))
     _emit(resp.summary(0), lambda: bode_text(resp, 0, req), png, as_json, req.cautions)
+
+
+def _db_files(db: str | None) -> list[Any]:
+    """The stockroom's files, which a plot must never replace."""
+    from picker.store.engine import resolve_url
+    from picker.store.outfile import database_files
+
+    return database_files(resolve_url(db))

@@ -10,6 +10,7 @@ Sizes are in pixels; a PNG comes out at exactly the requested size.
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
@@ -166,13 +167,19 @@ def bode_figure(resp: Response, i: int, size_px: tuple[int, int] = BODE_SIZE) ->
     return fig
 
 
-def save_png(fig: Figure, path: str | Path) -> Path:
-    """Write ``fig`` as a PNG at its own pixel size; errors name the file."""
+def save_png(fig: Figure, path: str | Path, protected: Sequence[Path] = ()) -> Path:
+    """Write ``fig`` as a PNG at its own pixel size; errors name the file.
+
+    protected: the stockroom's files (picker.store.outfile.database_files); the plot goes
+    to a fresh temporary file first and a target that is one of them is refused.
+    """
     from picker.errors import BadValue
+    from picker.store.outfile import replacing
 
     p = Path(path)
     try:
-        fig.savefig(p, format="png", dpi=DPI)
+        with replacing(p, protected, "--png") as tmp:
+            fig.savefig(tmp, format="png", dpi=DPI)
     except OSError as exc:
         raise BadValue("--png", str(path), f"cannot be written ({exc.strerror}); choose a "
                        "writable path") from None

@@ -3,15 +3,16 @@ and programs (JSON, CSV).
 
 Times are stored in UTC; tables show them in the reader's local time, JSON and CSV
 keep ISO 8601 with the UTC offset. CSV text cells carry the same spreadsheet formula
-guard as the parts export (OWASP CSV injection).
+guard as the parts export (OWASP CSV injection) and the same quoting (a field holding
+CR, LF, a tab, a comma or a quote is quoted).
 """
 
 from __future__ import annotations
 
-import csv
 from collections.abc import Iterable, Mapping, Sequence
 from typing import Any
 
+from picker.store.csvio import CsvWriter
 from picker.store.records import escape_text
 from picker.store.reservations import Holding
 from picker.store.stock import Movement
@@ -48,7 +49,7 @@ def log_records(moves: Iterable[Movement]) -> list[dict[str, Any]]:
 
 
 def log_csv(moves: Iterable[Movement], out: Any) -> int:
-    writer = csv.writer(out, lineterminator="\n")
+    writer = CsvWriter(out)
     writer.writerow(LOG_COLUMNS)
     n = 0
     for m in moves:
@@ -74,7 +75,7 @@ def low_table(rows: Sequence[Mapping[str, Any]]) -> str:
 
 
 def low_csv(rows: Iterable[Mapping[str, Any]], out: Any) -> int:
-    writer = csv.writer(out, lineterminator="\n")
+    writer = CsvWriter(out)
     writer.writerow(LOW_COLUMNS)
     n = 0
     for r in rows:
@@ -95,7 +96,7 @@ def projects_table(rows: Sequence[Holding]) -> str:
 
 
 def projects_csv(rows: Iterable[Holding], out: Any) -> int:
-    writer = csv.writer(out, lineterminator="\n")
+    writer = CsvWriter(out)
     writer.writerow(PROJECT_COLUMNS)
     n = 0
     for h in rows:

@@ -104,3 +104,21 @@ def to_json_rows(obj: Mapping[str, Any], write: Callable[[str], Any] | None = No
             out(to_json(value).replace("\n", "\n  "))
     out("\n}" if obj else "}")
     return "".join(pieces)
+
+
+def change_lines(changes: Iterable[Any]) -> Iterator[str]:
+    """`PART  FIELD: OLD -> NEW` for each field an update changes (FieldChange records),
+    in engineering units; 'unknown' for no value, text quoted so spaces show."""
+    for c in changes:
+        old, new = _changed(c.field, c.old), _changed(c.field, c.new)
+        if old == new:  # rounded alike: show the exact SI numbers
+            old, new = repr(c.old), repr(c.new)
+        yield f"{c.label}  {c.field}: {old} -> {new}"
+
+
+def _changed(name: str, value: Any) -> str:
+    if value is None:
+        return "unknown"
+    if BY_NAME[name].kind == "text":
+        return json.dumps(value, ensure_ascii=False)
+    return cell(name, value)

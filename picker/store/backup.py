@@ -24,16 +24,15 @@ from __future__ import annotations
 
 import json
 import math
-import os
 from dataclasses import dataclass
 from datetime import UTC, datetime
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Literal
 
-from picker.errors import BadValue, StoreError
-from picker.store import engine as _engine
+from picker.errors import StoreError
 from picker.store import migrate
-from picker.store.engine import is_sqlite, redact
+from picker.store.engine import is_sqlite, redact, sqlite_connector
+from picker.store.outfile import database_files, fresh_temp, replacing
 from picker.store.stock import busy_error
 
 if TYPE_CHECKING:
@@ -79,55 +78,44 @@ def schema_of(store: Store) -> str:
 
 # -- backup ------------------------------------------------------------------------
 def backup(store: Store, path: Path, *, portable: bool = False) -> BackupReport:
-    """Write a backup of the whole stockroom to path (replaced atomically)."""
+    """Write a backup of the whole stockroom to path (replaced atomically).
+
+    The backup goes to a new temporary file and replaces path only when complete;
+    a path that is the stockroom's own file (or its -wal, -shm or -journal file) is
+    refused (picker.store.outfile), so a backup can never overwrite the stockroom.
+    """
     from sqlalchemy import create_engine
 
     schema = schema_of(store)
-    src = sqlite_path(store.url) if is_sqlite(store.url) else None
+    protected = database_files(store.url)
     target = path.expanduser()
-    if src is not None and target.resolve() in {
-        src.resolve(), *(src.resolve().with_name(src.name + s) for s in ("-wal", "-shm"))
-    }:
-        raise BadValue("FILE", str(path), "is the stockroom itself; choose another file")
-    tmp = target.with_name(target.name + ".part")
-    try:
+    with replacing(path, protected) as tmp:
         if is_sqlite(store.url):
             _sqlite_snapshot(store, tmp)
             if portable:
-                snap = tmp.with_name(tmp.name + ".db")
-                tmp.replace(snap)
+                snap = fresh_temp(target.parent, protected)
                 try:
-                    snap_engine = create_engine(f"sqlite:///{snap}")
-                    rows = _write_portable(snap_engine, schema, store.where, tmp)
-                    snap_engine.dispose()
+                    tmp.replace(snap)
+                    snap_engine = create_engine(
+                        "sqlite://", creator=sqlite_connector(snap, read_only=True))
+                    try:
+                        rows = _write_portable(snap_engine, schema, store.where, tmp)
+                    finally:
+                        snap_engine.dispose()
                 finally:
                     snap.unlink(missing_ok=True)
             else:
                 rows = _sqlite_counts(tmp)
         else:
             rows = _write_portable(store.engine, schema, store.where, tmp)
-        _fsync(tmp)
-        tmp.replace(target)
-    except OSError as exc:
-        tmp.unlink(missing_ok=True)
-        raise BadValue("FILE", str(path), f"cannot be written ({exc.strerror})") from None
-    except BaseException:
-        tmp.unlink(missing_ok=True)
-        raise
     kind: Kind = "portable" if portable or not is_sqlite(store.url) else "sqlite"
     return BackupReport(target, kind, schema, rows)
-
-
-def _fsync(path: Path) -> None:
-    with path.open("rb+") as f:
-        os.fsync(f.fileno())
 
 
 def _sqlite_snapshot(store: Store, dest: Path) -> None:
     """SQLite's online backup API, all pages in one step (one consistent snapshot)."""
     import sqlite3
 
-    dest.unlink(missing_ok=True)
     src_file = sqlite_path(store.url)
     raw = None
     src: Any = None
@@ -136,8 +124,8 @@ def _sqlite_snapshot(store: Store, dest: Path) -> None:
             raw = store.engine.raw_connection()
             src = raw.driver_connection
         else:
-            src = sqlite3.connect(str(src_file), timeout=_engine.BUSY_TIMEOUT_S)
-        dst = sqlite3.connect(str(dest))
+            src = sqlite_connector(src_file)()
+        dst = sqlite_connector(dest)()
         try:
             src.backup(dst)  # pages=-1: the whole database in one step
             dst.execute("PRAGMA journal_mode = DELETE")  # one self-contained file
@@ -156,9 +144,7 @@ def _sqlite_snapshot(store: Store, dest: Path) -> None:
 
 
 def _sqlite_counts(path: Path) -> dict[str, int]:
-    import sqlite3
-
-    con = sqlite3.connect(str(path))
+    con = sqlite_connector(path)()
     try:
         names = [r[0] for r in con.execute(
             "SELECT name FROM sqlite_master WHERE type = 'table' ORDER BY name")]

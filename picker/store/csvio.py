@@ -5,21 +5,26 @@ short names such as ``gbw`` or ``slew`` are accepted too), one part per row. Num
 may carry units (``1MHz``, ``0.5V/us``); a plain number is in the SI unit of the
 column. Export writes plain SI numbers with full precision and guards text cells
 against spreadsheet formula execution (OWASP CSV injection) with a leading
-apostrophe, which import removes again, so an export imports back identically.
+apostrophe (also after a line break inside a cell), which import removes again, so
+an export imports back identically. Every field holding a comma, a quote, a tab, a
+carriage return or a line feed is quoted (Python's csv writer leaves a bare carriage
+return unquoted when lines end in LF; picker's writer does not).
 """
 
 from __future__ import annotations
 
 import csv
 import io
-from collections.abc import Iterable, Mapping
+import math
+import re
+from collections.abc import Iterable, Mapping, Sequence
 from datetime import datetime
 from pathlib import Path
 from typing import Any
 
 from picker.errors import BadValue, ImportProblems, PickerError
 from picker.fields import BY_NAME, FIELDS
-from picker.store.records import ALIASES, check_consistency, convert, escape_text
+from picker.store.records import ALIASES, check_consistency, convert, escape_text, utc_time
 
 MAX_BYTES = 200 * 1024 * 1024
 MAX_COLUMNS = 64
@@ -50,8 +55,13 @@ def read_text(path: Path) -> str:
         ) from None
 
 
-def parse_csv(text: str, source: str) -> list[dict[str, Any]]:
-    """Validate every row; return records (SI values) or raise ImportProblems listing all."""
+def parse_csv(text: str, source: str, *, blank_clears: bool = False) -> list[dict[str, Any]]:
+    """Validate every row; return records (SI values) or raise ImportProblems listing all.
+
+    A blank cell is left out of its record, so an update leaves that field as it is
+    (a new part has it unknown; its quantity is 0). With blank_clears a blank cell
+    is kept as unknown (None; a quantity of 0), so an update clears the field.
+    """
     lines = text.splitlines()
     if not lines or not lines[0].strip():
         raise BadValue(source, "", "is empty; the first row must name the columns (label, ...)")
@@ -101,6 +111,8 @@ def parse_csv(text: str, source: str) -> list[dict[str, Any]]:
             for name, cell in zip(names, row, strict=True):
                 assert name is not None
                 where = f"row {rowno}, column {name}"
+                if not blank_clears and name != "label" and not cell.strip():
+                    continue
                 try:
                     rec[name] = _updated(cell, where) if name == "updated_at" else convert(
                         name, cell, where, from_csv=True
@@ -130,17 +142,12 @@ def parse_csv(text: str, source: str) -> list[dict[str, Any]]:
 
 
 def _updated(cell: str, where: str) -> datetime | None:
-    if not cell.strip():
-        return None
-    try:
-        return datetime.fromisoformat(cell.strip())
-    except ValueError:
-        raise BadValue(where, cell[:40], "is not an ISO date-time (2026-01-31T12:00:00+00:00)") from None
+    return utc_time(cell, where) if cell.strip() else None
 
 
 def _cell(name: str, value: Any) -> str:
-    if value is None:
-        return ""
+    if value is None or (isinstance(value, float) and math.isnan(value)):
+        return ""  # unknown (a DataFrame holds NaN for it)
     if name == "updated_at":
         return value.isoformat() if isinstance(value, datetime) else str(value)
     kind = BY_NAME[name].kind
@@ -151,12 +158,38 @@ def _cell(name: str, value: Any) -> str:
     return repr(float(value))
 
 
-def write_csv(rows: Iterable[Mapping[str, Any]], out: io.TextIOBase | Any) -> int:
-    """Write parts to an open text stream; returns the number of rows."""
-    writer = csv.writer(out, lineterminator="\n")
-    writer.writerow(EXPORT_COLUMNS)
+_QUOTE = re.compile(r'[,"\r\n\t]')
+
+
+class CsvWriter:
+    """Comma-separated rows ending in LF (RFC 4180 quoting): a field that holds a comma,
+    a double quote, CR, LF or a tab is quoted, its quotes doubled; None is empty."""
+
+    def __init__(self, out: Any) -> None:
+        self.out = out
+
+    def writerow(self, cells: Iterable[Any]) -> None:
+        self.out.write(",".join(_field(c) for c in cells) + "\n")
+
+
+def _field(value: Any) -> str:
+    text = "" if value is None else str(value)
+    if _QUOTE.search(text):
+        return '"' + text.replace('"', '""') + '"'
+    return text
+
+
+def write_csv(rows: Iterable[Mapping[str, Any]], out: io.TextIOBase | Any,
+              columns: Sequence[str] = EXPORT_COLUMNS) -> int:
+    """Write parts to an open text stream; returns the number of rows.
+
+    columns: the fields to write (all of them and updated_at by default); a file of
+    some columns imports back as an update of just those columns.
+    """
+    writer = CsvWriter(out)
+    writer.writerow(columns)
     n = 0
     for r in rows:
-        writer.writerow([_cell(c, r.get(c)) for c in EXPORT_COLUMNS])
+        writer.writerow([_cell(c, r.get(c)) for c in columns])
         n += 1
     return n

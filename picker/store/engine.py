@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import os
 import re
+from collections.abc import Callable
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
@@ -53,16 +54,44 @@ def is_sqlite(url: str) -> bool:
     return url.startswith("sqlite")
 
 
+def sqlite_connector(path: Path, *, read_only: bool = False) -> Callable[[], Any]:
+    """A function that opens the SQLite file at path by its name (no URI parsing).
+
+    With read_only the file is opened through a SQLite URI whose path is
+    percent-quoted, so no character of the name can start a query or a fragment.
+    """
+    import sqlite3
+    from urllib.parse import quote
+
+    name = os.path.abspath(path)
+
+    def connect() -> Any:
+        if read_only:
+            uri = "file:" + quote(name, safe="/") + "?mode=ro"
+            return sqlite3.connect(uri, uri=True, timeout=BUSY_TIMEOUT_S,
+                                   check_same_thread=False)
+        return sqlite3.connect(name, timeout=BUSY_TIMEOUT_S, check_same_thread=False)
+
+    return connect
+
+
 def make_engine(url: str, *, must_exist: bool = False) -> Engine:
     """Create an engine with picker's connection settings; nothing is opened yet."""
     from sqlalchemy import create_engine, event
     from sqlalchemy.exc import ArgumentError, NoSuchModuleError
+    from sqlalchemy.pool import QueuePool
 
     kwargs: dict[str, Any] = {}
+    engine_url = url
     if is_sqlite(url):
         path = url.split("///", 1)[1] if "///" in url else ""
         if path and path != ":memory:":
             p = Path(path)
+            # the file is opened by its path, never through a URL, so '?', '#', '%' and
+            # spaces in a file name mean themselves (a URL would cut or decode them)
+            kwargs["creator"] = sqlite_connector(p)
+            kwargs["poolclass"] = QueuePool
+            engine_url = "sqlite://"
             if must_exist and not p.exists():
                 raise StoreError(
                     f"no stockroom at {p}; create one with `picker init` (or `picker init --demo`)"
@@ -78,7 +107,7 @@ def make_engine(url: str, *, must_exist: bool = False) -> Engine:
             kwargs["poolclass"] = StaticPool
             kwargs["connect_args"]["check_same_thread"] = False
     try:
-        engine = create_engine(url, **kwargs)
+        engine = create_engine(engine_url, **kwargs)
     except (ArgumentError, NoSuchModuleError, ValueError) as exc:
         raise StoreError(
             f"--db: cannot use {redact(url)!r} ({redact(str(exc)).splitlines()[0]}); "

@@ -9,6 +9,7 @@ from __future__ import annotations
 import math
 import re
 from collections.abc import Mapping
+from datetime import UTC, datetime
 
 from picker.errors import BadValue
 from picker.fields import BY_NAME, FIELDS
@@ -24,6 +25,11 @@ ALIASES.update({"sr": "slew_v_per_s", "ro": "rout_ohm", "vs_min": "supply_min_v"
                 "vs_max": "supply_max_v"})
 
 TEXT_MAX = 10_000
+# The largest quantity a stockroom holds: import, edit, stock add and restore accept up
+# to this, and it fits the 32-bit integer column of every database picker uses.
+QTY_MAX = 1_000_000_000
+# Times are kept in UTC; this range fits SQLite's text times and PostgreSQL's timestamp.
+YEARS = (1970, 9999)
 # Characters that make a spreadsheet treat a cell as a formula (OWASP, CSV injection).
 FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
 
@@ -37,13 +43,30 @@ def field_name(name: str, where: str) -> str:
     )
 
 
+# A line break inside a cell starts a new line in a spreadsheet or a line-based tool:
+# the text after it gets the same guard as the start of the cell.
+_GUARD_AFTER_BREAK = re.compile(r"(?<=[\r\n])(?=[=+\-@\t'])")
+_GUARDED_AFTER_BREAK = re.compile(r"(?<=[\r\n])'")
+
+
 def unescape_text(text: str) -> str:
-    """Undo the export's formula guard: one leading apostrophe is removed."""
-    return text[1:] if text.startswith("'") else text
+    """Undo the export's formula guard (escape_text): one apostrophe is removed at the
+    start of the cell and right after each line break."""
+    if text.startswith("'"):
+        text = text[1:]
+    return _GUARDED_AFTER_BREAK.sub("", text) if "'" in text else text
 
 
 def escape_text(text: str) -> str:
-    """Guard a text cell against formula execution in spreadsheets (OWASP CSV injection)."""
+    """Guard a text cell against formula execution in spreadsheets (OWASP CSV injection).
+
+    A cell that starts with a formula character (= + - @ tab CR) or an apostrophe gets
+    a leading apostrophe; so does every line inside the cell (after CR or LF) that
+    starts with one of = + - @ tab or an apostrophe. Apostrophes already there are
+    doubled the same way, so unescape_text gives back exactly the original text.
+    """
+    if "\r" in text or "\n" in text:
+        text = _GUARD_AFTER_BREAK.sub("'", text)
     if text.startswith(FORMULA_START) or text.startswith("'"):
         return "'" + text
     return text
@@ -90,11 +113,63 @@ def convert(name: str, raw: object, where: str, *, from_csv: bool = False) -> ob
             number = as_float  # else let the parser explain it
     value = parse(number, f.kind, where, allow_negative=f.signed or None, allow_zero=not f.positive)  # type: ignore[arg-type]
     if f.kind == "count":
-        if value > 1e9:
+        if value > QTY_MAX:
             raise BadValue(where, raw, "is more than a stockroom can hold")
         return int(value)
     if abs(value) > 1e30:
         raise BadValue(where, raw, "is too large to be a real op-amp figure")
+    return value
+
+
+def stored_value(name: str, value: object, where: str) -> object:
+    """A part field read back from storage (a backup), held to the rules of an import.
+
+    Text must be text; a number must be a finite int or float (a count a whole
+    number); then the value goes through convert, so whatever an import refuses
+    (too long, negative, zero where positive, above QTY_MAX, beyond 1e30) is refused.
+    """
+    f = BY_NAME[name]
+    if value is None:
+        if name in ("label", "qty"):
+            raise BadValue(where, value, "is missing; every part has one")
+        return None
+    if f.kind == "text":
+        if not isinstance(value, str):
+            raise BadValue(where, value, "is not text")
+        if name == "label" and value != value.strip():
+            raise BadValue(where, value[:20], "has spaces around it; picker never stores that")
+        return convert(name, value, where)
+    if isinstance(value, bool) or not isinstance(value, int | float):
+        raise BadValue(where, str(value)[:40], "is not a number")
+    if f.kind == "count" and not isinstance(value, int):
+        raise BadValue(where, value, "is not a whole number")
+    if isinstance(value, float) and not math.isfinite(value):
+        raise BadValue(where, value, "is not a finite number")
+    return convert(name, repr(value), where)
+
+
+def utc_time(raw: object, where: str) -> datetime:
+    """An ISO 8601 time (text or datetime) as an aware UTC datetime within YEARS.
+
+    An offset is honoured (converted to UTC), a time without one is taken as UTC
+    (what picker writes).
+    """
+    if isinstance(raw, datetime):
+        value = raw
+    else:
+        try:
+            value = datetime.fromisoformat(str(raw).strip())
+        except ValueError:
+            raise BadValue(where, str(raw)[:40],
+                           "is not an ISO date-time (2026-01-31T12:00:00+00:00)") from None
+    try:
+        value = value.replace(tzinfo=UTC) if value.tzinfo is None else value.astimezone(UTC)
+        year = value.year
+    except OverflowError:  # past the year 9999 once in UTC
+        year = YEARS[1] + 1
+    if not YEARS[0] <= year <= YEARS[1]:
+        raise BadValue(where, str(raw)[:40], f"is outside the years {YEARS[0]}..{YEARS[1]} "
+                       "(in UTC); give a real date-time such as 2026-01-31T12:00:00+00:00")
     return value
 
 

@@ -16,6 +16,7 @@ from picker.errors import Conflict, NotFound, StoreError
 from picker.fields import FIELDS, NUMERIC
 from picker.store import migrate
 from picker.store.engine import is_sqlite, make_engine, redact, resolve_url
+from picker.store.records import check_consistency
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -26,10 +27,22 @@ CHUNK = 2_000
 
 
 @dataclass(frozen=True)
+class FieldChange:
+    """One field of an existing part that an update changes (values in SI, None =
+    unknown)."""
+
+    label: str
+    field: str
+    old: Any
+    new: Any
+
+
+@dataclass(frozen=True)
 class ImportReport:
     added: int
     updated: int
     dry_run: bool
+    changes: tuple[FieldChange, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -243,124 +256,142 @@ class Store:
         progress: Callable[[int], None] | None = None,
         by: str = "",
     ) -> ImportReport:
-        """Insert (and with update=True overwrite) parts, all or nothing.
+        """Insert (and with update=True change) parts, all or nothing.
 
-        A label that already exists is a Conflict unless update is set.
+        A label that already exists is a Conflict unless update is set. An update
+        changes only the fields a record holds: a field missing from the record is
+        left as it is, a field given as None becomes unknown (picker.store.csvio
+        leaves blank cells out unless blanks are to clear). The report lists every
+        field that changes (old -> new); a dry run computes it and writes nothing.
         """
         rows = [dict(r) for r in records]
         now = _now()
         for r in rows:
-            r.setdefault("updated_at", now)
-            if r["updated_at"] is None:
+            if r.get("updated_at") is None:
                 r["updated_at"] = now
-            # a new part without a quantity has none on hand (_full); an update without a
-            # qty column leaves the quantity alone
-        labels = [r["label"] for r in rows]
         try:
-            return self._write_records(rows, labels, update, dry_run, progress, by)
-        except _DryRun:
-            return ImportReport(
-                added=sum(1 for r in rows if r["label"] not in self._existing(labels)),
-                updated=len(self._existing(labels)),
-                dry_run=True,
-            )
-
-    def _existing(self, labels: Sequence[str]) -> set[str]:
-        from sqlalchemy import select
-
-        from picker.store.models import parts
-
-        found: set[str] = set()
-        with self.engine.connect() as conn:
-            for i in range(0, len(labels), 500):
-                chunk = list(labels[i : i + 500])
-                found.update(
-                    x[0] for x in conn.execute(select(parts.c.label).where(parts.c.label.in_(chunk)))
-                )
-        return found
+            return self._write_records(rows, update, dry_run, progress, by)
+        except _DryRun as done:
+            return done.report
 
     def _write_records(
         self,
         rows: list[dict[str, Any]],
-        labels: list[str],
         update: bool,
         dry_run: bool,
         progress: Callable[[int], None] | None,
         by: str = "",
     ) -> ImportReport:
-        from sqlalchemy import bindparam, insert, select
+        from sqlalchemy import bindparam, insert
         from sqlalchemy import update as sql_update
         from sqlalchemy.exc import IntegrityError
 
         from picker.store.models import parts
 
         with self._begin() as conn:
-            existing: set[str] = set()
-            for i in range(0, len(labels), 500):
-                chunk = labels[i : i + 500]
-                existing.update(
-                    x[0] for x in conn.execute(select(parts.c.label).where(parts.c.label.in_(chunk)))
-                )
-            if existing and not update:
-                shown = ", ".join(sorted(existing)[:5])
+            self._write_lock(conn)
+            current = _current_rows(conn, [r["label"] for r in rows])
+            if current and not update:
+                shown = ", ".join(sorted(current)[:5])
                 raise Conflict(
-                    f"{len(existing)} label(s) already in the stockroom ({shown}); "
+                    f"{len(current)} label(s) already in the stockroom ({shown}); "
                     "use --update to overwrite them or rename them"
                 )
-            new = [r for r in rows if r["label"] not in existing]
-            old = [r for r in rows if r["label"] in existing]
-            before = _locked_quantities(conn, [r["label"] for r in old if "qty" in r])
-            done = 0
+            new = [r for r in rows if r["label"] not in current]
+            old = [r for r in rows if r["label"] in current]
+            changes = _changes(old, current)
             try:
                 for i in range(0, len(new), CHUNK):
                     fresh = [_full(r) for r in new[i : i + CHUNK]]
                     conn.execute(insert(parts), fresh)
-                    done += len(fresh)
                     if progress:
                         progress(len(fresh))
-                if old:
-                    keys = [k for k in old[0] if k != "label"]
+                groups: dict[tuple[str, ...], list[dict[str, Any]]] = {}
+                for r in old:  # one statement per set of columns given
+                    groups.setdefault(tuple(k for k in r if k != "label"), []).append(r)
+                for keys, group in groups.items():
                     stmt = (
                         sql_update(parts)
                         .where(parts.c.label == bindparam("b_label"))
                         .values({k: bindparam(f"b_{k}") for k in keys})
                     )
-                    for i in range(0, len(old), CHUNK):
+                    for i in range(0, len(group), CHUNK):
                         changed = [
-                            {f"b_{k}": v for k, v in _full(r).items() if k == "label" or k in keys}
-                            for r in old[i : i + CHUNK]
+                            {"b_label": r["label"],
+                             **{f"b_{k}": _stored(k, r[k]) for k in keys}}
+                            for r in group[i : i + CHUNK]
                         ]
                         conn.execute(stmt, changed)
                         if progress:
                             progress(len(changed))
             except IntegrityError as exc:
                 raise Conflict(_integrity_message(exc, "")) from None
-            for r in old:
-                if r["label"] in before and r.get("qty") is not None:
-                    part_id, had = before[r["label"]]
-                    if int(r["qty"]) != had:
-                        _log_quantity(conn, part_id, r["label"], int(r["qty"]) - had,
-                                      int(r["qty"]), "import", by, "parts import --update",
-                                      _now())
+            for c in changes:
+                if c.field == "qty":
+                    part_id = current[c.label]["id"]
+                    _log_quantity(conn, part_id, c.label, int(c.new) - int(c.old),
+                                  int(c.new), "import", by, "parts import --update", _now())
+            report = ImportReport(added=len(new), updated=len(old), dry_run=dry_run,
+                                  changes=tuple(changes))
             if dry_run:
-                raise _DryRun
-        return ImportReport(added=len(new), updated=len(old), dry_run=dry_run)
+                raise _DryRun(report)
+        return report
+
+    def _write_lock(self, conn: Connection) -> None:
+        """On SQLite, take the write lock before the first read (BEGIN IMMEDIATE).
+
+        SQLite has no SELECT ... FOR UPDATE: without this, a take committed between
+        reading a quantity and writing the new one would be missing from the logged
+        change, and the movement log would no longer explain the stock. PostgreSQL
+        locks the rows it reads instead (_current_rows).
+        """
+        from sqlalchemy.exc import OperationalError
+
+        if conn.dialect.name == "sqlite":
+            try:
+                conn.exec_driver_sql("BEGIN IMMEDIATE")
+            except OperationalError as exc:
+                raise _busy(self, exc) from None
 
     def _begin(self):  # type: ignore[no-untyped-def]
         return _Transaction(self)
 
 
-def _locked_quantities(conn: Connection, labels: Sequence[str]) -> dict[str, tuple[int, int]]:
-    """label -> (id, qty) of existing parts, their rows locked until the transaction ends."""
+def _current_rows(conn: Connection, labels: Sequence[str]) -> dict[str, dict[str, Any]]:
+    """label -> every field (and id) of the existing parts among labels, their rows
+    locked until the transaction ends (PostgreSQL; SQLite holds its write lock)."""
     from sqlalchemy import select
 
     from picker.store.models import parts
 
-    out: dict[str, tuple[int, int]] = {}
+    cols = [parts.c.id, *(parts.c[n] for n in FIELD_NAMES)]
+    out: dict[str, dict[str, Any]] = {}
     for i in range(0, len(labels), 500):
-        stmt = (select(parts.c.label, parts.c.id, parts.c.qty)
-                .where(parts.c.label.in_(list(labels[i : i + 500]))).with_for_update())
-        out.update({r.label: (int(r.id), int(r.qty)) for r in conn.execute(stmt)})
+        stmt = (select(*cols).where(parts.c.label.in_(list(labels[i : i + 500])))
+                .with_for_update())
+        out.update({r["label"]: dict(r) for r in conn.execute(stmt).mappings()})
+    return out
+
+
+def _stored(name: str, value: Any) -> Any:
+    return 0 if name == "qty" and value is None else value  # qty is never unknown
+
+
+def _changes(old: Sequence[Mapping[str, Any]],
+             current: Mapping[str, Mapping[str, Any]]) -> list[FieldChange]:
+    """Every field an update changes, part by part in file order; refuses an update
+    that would leave a part inconsistent (supply minimum above its maximum)."""
+    out: list[FieldChange] = []
+    for r in old:
+        label = r["label"]
+        had = current[label]
+        check_consistency({**had, **r}, f"{label}: ")
+        for name in FIELD_NAMES:
+            if name == "label" or name not in r:
+                continue
+            new = _stored(name, r[name])
+            if had[name] != new:
+                out.append(FieldChange(label, name, had[name], new))
     return out
 
 
@@ -373,7 +404,11 @@ def _log_quantity(conn: Connection, part_id: int, label: str, delta: int, qty_af
 
 
 class _DryRun(Exception):
-    """Raised inside a transaction to roll a dry run back."""
+    """Raised inside a transaction to roll a dry run back; carries its report."""
+
+    def __init__(self, report: ImportReport) -> None:
+        super().__init__("dry run")
+        self.report = report
 
 
 def _full(r: Mapping[str, Any]) -> dict[str, Any]:

@@ -12,13 +12,14 @@ PostgreSQL's id sequences are moved past the restored ids.
 from __future__ import annotations
 
 import json
-from collections.abc import Iterator
+import math
+from collections.abc import Callable, Iterator
 from dataclasses import dataclass
-from datetime import datetime
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Literal
 
 from picker.errors import BadValue, Conflict
+from picker.fields import BY_NAME
 from picker.store import migrate
 from picker.store.backup import (
     BATCH,
@@ -27,9 +28,9 @@ from picker.store.backup import (
     SKIP,
     SQLITE_MAGIC,
     sqlite_path,
-    utc,
 )
-from picker.store.engine import is_sqlite, redact
+from picker.store.engine import is_sqlite, redact, sqlite_connector
+from picker.store.records import QTY_MAX, TEXT_MAX, stored_value, utc_time
 from picker.store.stock import busy_error
 
 if TYPE_CHECKING:
@@ -116,8 +117,12 @@ class _Source:
     def _sqlite(self) -> tuple[str, Iterator[Block]]:
         from sqlalchemy import MetaData, create_engine, select, text
         from sqlalchemy.exc import DatabaseError
+        from sqlalchemy.pool import NullPool
 
-        eng = create_engine(f"sqlite:///file:{self.path.resolve()}?mode=ro&uri=true")
+        # opened by its path (percent-quoted in a read-only SQLite URI): '#', '?', '%'
+        # and spaces in the name mean themselves
+        eng = create_engine("sqlite://", creator=sqlite_connector(self.path, read_only=True),
+                            poolclass=NullPool)
         self._close.append(eng.dispose)
         conn = eng.connect()
         self._close.append(conn.close)
@@ -263,10 +268,10 @@ def _load(conn: Connection, where: str, source: str, schema: str,
 
 def _insert(conn: Connection, table: Table, columns: list[str],
             rows: Iterator[tuple[int, list[Any]]], source: str) -> int:
-    from sqlalchemy import DateTime, insert
+    from sqlalchemy import insert
     from sqlalchemy.exc import SQLAlchemyError
 
-    stamp = [isinstance(table.c[c].type, DateTime) for c in columns]
+    checks = [_column_check(table, c) for c in columns]
     n = 0
     batch: list[dict[str, Any]] = []
     first = 0
@@ -284,12 +289,9 @@ def _insert(conn: Connection, table: Table, columns: list[str],
     for lineno, values in rows:
         if not batch:
             first = lineno
-        rec: dict[str, Any] = {}
-        for col, is_time, v in zip(columns, stamp, values, strict=True):
-            if is_time and v is not None:
-                v = _time(v, source, lineno)
-            rec[col] = v
-        batch.append(rec)
+        where = f"{source}: {table.name} row at line {lineno}, column "
+        batch.append({col: check(v, where + col)
+                      for col, check, v in zip(columns, checks, values, strict=True)})
         n += 1
         if len(batch) >= BATCH:
             flush()
@@ -298,13 +300,52 @@ def _insert(conn: Connection, table: Table, columns: list[str],
     return n
 
 
-def _time(value: Any, source: str, lineno: int) -> datetime:
-    if isinstance(value, datetime):
-        return utc(value)
-    try:
-        return utc(datetime.fromisoformat(str(value)))
-    except ValueError:
-        raise BadValue(source, f"row {lineno}", f"holds {value!r}, not an ISO time") from None
+Check = Callable[[Any, str], Any]
+INT_MAX = 2**31 - 1  # the Integer columns of PostgreSQL (and what picker writes to SQLite)
+_MOVEMENT_COUNTS = ("delta", "qty_after")
+
+
+def _column_check(table: Table, name: str) -> Check:
+    """How one column of a backup row is checked before it is restored: a part field
+    by the rules of an import (records.stored_value), every other column by its type
+    (whole numbers within 32 bits, finite numbers, text within its length, no NUL,
+    times within records.YEARS); a quantity in the log within records.QTY_MAX."""
+    from sqlalchemy import DateTime, Float, Integer, String
+
+    column = table.c[name]
+    if table.name == "parts" and name in BY_NAME:
+        return lambda v, where: stored_value(name, v, where)
+    nullable = bool(column.nullable)
+    kind = column.type
+    limit = QTY_MAX if table.name == "movements" and name in _MOVEMENT_COUNTS else INT_MAX
+
+    def check(value: Any, where: str) -> Any:
+        if value is None:
+            if not nullable:
+                raise BadValue(where, value, "is missing; nothing was restored")
+            return None
+        if isinstance(kind, DateTime):
+            return utc_time(value, where)
+        if isinstance(kind, Integer):
+            if isinstance(value, bool) or not isinstance(value, int) or abs(value) > limit:
+                raise BadValue(where, str(value)[:40], f"is not a whole number within "
+                               f"±{limit}; nothing was restored")
+            return value
+        if isinstance(kind, Float):
+            if isinstance(value, bool) or not isinstance(value, int | float) or \
+                    not math.isfinite(value):
+                raise BadValue(where, str(value)[:40], "is not a finite number; nothing "
+                               "was restored")
+            return float(value)
+        if isinstance(kind, String):  # Text too
+            size = kind.length or TEXT_MAX
+            if not isinstance(value, str) or len(value) > size or "\x00" in value:
+                raise BadValue(where, str(value)[:40], f"is not text of at most {size} "
+                               "characters; nothing was restored")
+            return value
+        return value
+
+    return check
 
 
 def _move_sequences(conn: Connection, meta: Any) -> None:

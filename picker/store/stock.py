@@ -27,7 +27,7 @@ from dataclasses import dataclass
 from datetime import UTC, date, datetime
 from typing import TYPE_CHECKING, Any, Literal
 
-from picker.errors import BadValue, Conflict, NotFound, StoreError
+from picker.errors import BadValue, Conflict, NotFound, PickerError, StoreError
 from picker.store import engine as _engine
 from picker.store.engine import is_sqlite, redact
 
@@ -258,12 +258,12 @@ def return_(store: Store, label: str, qty: int, project: str, by: str,
         # the UPDATE comes first: it locks the part's row before the log is read
         row = conn.execute(
             update(parts)
-            .where(parts.c.label == label)
+            .where(parts.c.label == label, parts.c.qty <= QTY_MAX - n)
             .values(qty=parts.c.qty + n, updated_at=at)
             .returning(parts.c.id, parts.c.qty, parts.c.reserved)
         ).first()
         if row is None:
-            raise _missing(label)
+            raise _missing_or_full(conn, label, n)
         # out = taken + issued - returned, for this project
         out = -int(conn.execute(
             select(func.coalesce(func.sum(movements.c.delta), 0)).where(
@@ -281,6 +281,20 @@ def return_(store: Store, label: str, qty: int, project: str, by: str,
                     reserved_after=int(row.reserved))
 
 
+def _missing_or_full(conn: Any, label: str, n: int) -> PickerError:
+    """Why an adding UPDATE matched no row: no such part, or QTY_MAX would be passed
+    (the most an import accepts, so every export imports back)."""
+    from sqlalchemy import select
+
+    from picker.store.models import parts
+
+    have = conn.execute(select(parts.c.qty).where(parts.c.label == label)).scalar()
+    if have is None:
+        return _missing(label)
+    return Conflict(f"{label} has {have} on hand; {n} more would pass {QTY_MAX:,}, the most "
+                    "a stockroom holds; nothing changed")
+
+
 def restock(store: Store, label: str, qty: int, by: str, note: str | None = None) -> Movement:
     """Add qty new packages (a delivery)."""
     from sqlalchemy import update
@@ -292,12 +306,12 @@ def restock(store: Store, label: str, qty: int, by: str, note: str | None = None
     with _transaction(store) as conn:
         row = conn.execute(
             update(parts)
-            .where(parts.c.label == label)
+            .where(parts.c.label == label, parts.c.qty <= QTY_MAX - n)
             .values(qty=parts.c.qty + n, updated_at=at)
             .returning(parts.c.id, parts.c.qty, parts.c.reserved)
         ).first()
         if row is None:
-            raise _missing(label)
+            raise _missing_or_full(conn, label, n)
         return _log(conn, row.id, label, n, row.qty, None, "restock", who or "", text, _now(),
                     reserved_after=int(row.reserved))
 

@@ -153,3 +153,25 @@ def reservations_mix(url: str, labels: list[str], n: int, project: str, seed: in
     except BaseException:
         report["errors"].append(traceback.format_exc())
     out.put(report)
+
+
+def updater(url: str, label: str, n: int, seed: int, barrier: Any, out: Any) -> None:
+    """n imports with update=True, each setting the part's quantity to a random number
+    (what `picker parts import --update` does for a file with a qty column)."""
+    from picker.store import Store
+
+    rng = random.Random(seed)
+    report: dict[str, Any] = {"ok": 0, "refused": [], "errors": [], "seconds": 0.0}
+    try:
+        store = Store.open(url)
+        barrier.wait(timeout=60)
+        t0 = time.perf_counter()
+        for _ in range(n):
+            store.import_records([{"label": label, "qty": rng.randint(100, 400)}],
+                                 update=True, by="updater")
+            report["ok"] += 1
+        report["seconds"] = time.perf_counter() - t0
+        store.dispose()
+    except BaseException:
+        report["errors"].append(traceback.format_exc())
+    out.put(report)
