@@ -15,7 +15,8 @@ from typing import TYPE_CHECKING, Any
 from picker.errors import Conflict, NotFound, StoreError
 from picker.fields import FIELDS, NUMERIC
 from picker.store import migrate
-from picker.store.engine import is_sqlite, make_engine, redact, resolve_url
+from picker.store.engine import display_url, is_sqlite, make_engine, redact, resolve_url
+from picker.store.query import Condition, clause
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -30,15 +31,6 @@ class ImportReport:
     added: int
     updated: int
     dry_run: bool
-
-
-@dataclass(frozen=True)
-class Condition:
-    """One list filter: field, operator (>=, <=, >, <, =, !=, ~) and SI value or text."""
-
-    field: str
-    op: str
-    value: float | str
 
 
 def _now() -> datetime:
@@ -79,7 +71,7 @@ class Store:
     def where(self) -> str:
         if is_sqlite(self.url):
             return self.url.split("///", 1)[-1] or ":memory:"
-        return redact(self.url)
+        return display_url(self.url)
 
     def upgrade(self, revision: str = "head") -> None:
         from sqlalchemy.exc import DatabaseError
@@ -106,13 +98,14 @@ class Store:
     def parts_frame(
         self,
         columns: Sequence[str] | None = None,
-        conditions: Sequence[Condition] = (),
+        conditions: Sequence[Condition | str] = (),
         min_qty: int | None = None,
     ) -> pd.DataFrame:
         """Parts as a DataFrame indexed by label; numeric columns float64, NaN = unknown.
 
         Only the named columns are read (all fields and updated_at when None); conditions
-        and a minimum quantity are applied in SQL so fewer rows travel.
+        (a Condition or its ``--where`` text, see picker.store.query) and a minimum
+        quantity are applied in SQL so fewer rows travel.
         """
         import pandas as pd
 
@@ -124,7 +117,7 @@ class Store:
     def parts_columns(
         self,
         columns: Sequence[str],
-        conditions: Sequence[Condition] = (),
+        conditions: Sequence[Condition | str] = (),
         min_qty: int | None = None,
     ) -> tuple[Any, dict[str, Any]]:
         """Labels and numeric columns as float64 numpy arrays (NaN = unknown), by label.
@@ -137,12 +130,12 @@ class Store:
             raise ValueError(f"parts_columns reads numeric fields only, not {bad}")
         return self._read(columns, conditions, min_qty)
 
-    def _read(self, names: Sequence[str], conditions: Sequence[Condition],
+    def _read(self, names: Sequence[str], conditions: Sequence[Condition | str],
               min_qty: int | None) -> tuple[Any, dict[str, Any]]:
         from picker.store.columns import read_columns
         from picker.store.models import parts
 
-        where = [_clause(c) for c in conditions]
+        where = [clause(c) for c in conditions]
         if min_qty is not None:
             where.append(parts.c.qty >= min_qty)
         return read_columns(self.engine, names, where)
@@ -193,6 +186,10 @@ class Store:
 
     # -- writes ----------------------------------------------------------------
     def add(self, values: Mapping[str, Any]) -> None:
+        label = values.get("label")
+        if label is not None and label in self._existing([str(label)]):
+            raise Conflict(f"{label} is already in the stockroom; change it with "
+                           f"`picker parts edit {label} FIELD=VALUE` or choose another label")
         self.import_records([values], update=False)
 
     def edit(self, label: str, changes: Mapping[str, Any], by: str = "") -> None:
@@ -381,23 +378,6 @@ def _full(r: Mapping[str, Any]) -> dict[str, Any]:
     out["qty"] = 0 if out["qty"] is None else out["qty"]
     out["updated_at"] = r.get("updated_at") or _now()
     return out
-
-
-def _clause(cond: Condition) -> Any:
-    from picker.store.models import parts
-
-    col = parts.c[cond.field]
-    if cond.op == "~":
-        return col.ilike(f"%{cond.value}%")
-    ops: dict[str, Callable[[Any, Any], Any]] = {
-        ">=": lambda c, v: c >= v,
-        "<=": lambda c, v: c <= v,
-        ">": lambda c, v: c > v,
-        "<": lambda c, v: c < v,
-        "=": lambda c, v: c == v,
-        "!=": lambda c, v: c != v,
-    }
-    return ops[cond.op](col, cond.value)
 
 
 def _integrity_message(exc: Exception, label: str) -> str:
