@@ -348,7 +348,8 @@ class Brief:
         self.value = value
 
     def __repr__(self) -> str:
-        kind = {list: "a list", tuple: "a list", dict: "a table"}.get(type(self.value))
+        v = self.value
+        kind = "a list" if isinstance(v, list | tuple) else "a table" if isinstance(v, dict) else ""
         shown = _SHORT.repr(self.value)
         return f"{shown} ({kind})" if kind else shown
 

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import importlib
 import sys
+import warnings
 from typing import Any
 
 import click
@@ -79,6 +80,18 @@ class PickerGroup(click.Group):
             if "\x00" in str(arg):  # a shell cannot pass one; a program calling us can
                 _error(f"argument {i} contains a NUL character; remove it")
                 return EXIT_BAD_INPUT
+        # Warnings (numpy's RuntimeWarning on an overflow, say) are held while the command
+        # runs: a refused command shows its one line and nothing else; a finished one shows
+        # them after its output. The filters are left as they are (an "error" filter still
+        # raises).
+        with warnings.catch_warnings(record=True) as held:
+            code = self._run(args, prog_name, **extra)
+        if code == 0:
+            for w in held:
+                warnings.showwarning(w.message, w.category, w.filename, w.lineno, w.file, w.line)
+        return code
+
+    def _run(self, args: list[str] | None, prog_name: str, **extra: Any) -> int:
         try:
             rv = super().main(args, prog_name, standalone_mode=False, **extra)
         except click.exceptions.Exit as exc:
