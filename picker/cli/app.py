@@ -76,6 +76,9 @@ class PickerGroup(click.Group):
         error is one line on stderr and exit code 2; anything else is a bug (exit 1).
         """
         given = sys.argv[1:] if args is None else list(args)
+        engine = sys.modules.get("picker.store.engine")  # not imported: nothing remembered
+        if engine is not None:
+            engine.forget_secrets()
         for i, arg in enumerate(given, start=1):
             if "\x00" in str(arg):  # a shell cannot pass one; a program calling us can
                 _error(f"argument {i} contains a NUL character; remove it")

@@ -59,10 +59,20 @@ _LIBPQ_KEYS = frozenset({
     "sslpassword", "service", "connect_timeout", "application_name", "options",
     "target_session_attrs", "sslcert", "sslkey", "sslrootcert", "channel_binding",
 })
-# query-string keys whose value is a secret
-_SECRET_KEYS = frozenset({"password", "passwd", "pwd", "pass", "sslpassword", "secret"})
+# query-string keys whose values may be shown; any other value is hidden, as an unencoded
+# `&` inside a password (`password=a&b=c`) makes its tail look like another parameter
+_SHOWN_KEYS = frozenset({
+    "sslmode", "connect_timeout", "application_name", "target_session_attrs", "host",
+    "port", "dbname", "user", "client_encoding", "gssencmode", "channel_binding",
+})
 # every password seen in a --db URL of this process, in each form it may be printed in
 _SECRETS: set[str] = set()
+
+
+def forget_secrets() -> None:
+    """Forget the passwords remembered so far (one command line starts afresh, so a
+    one-letter password of an earlier run does not blank that letter in later messages)."""
+    _SECRETS.clear()
 
 
 def _is_key_value_dsn(text: str) -> bool:
@@ -89,19 +99,30 @@ def _normalised(url: str) -> str:
     unencoded ``@``); the query's secret keys are remembered too.
     """
     scheme, _, rest = url.partition("://")
-    userinfo, at, hostpart = rest.rpartition("@")
+    before, q, query = rest.partition("?")
+    if "@" in before:  # the user-info ends at the last @ before the query
+        userinfo, at, hostpart = before.rpartition("@")
+        hostpart += q + query
+    else:  # no user-info, or a password with an unencoded '?' (u:pa?ss@host)
+        head = before.split("/", 1)[0]
+        password_like = ":" in head and not head.rpartition(":")[2].isdigit()
+        userinfo, at, hostpart = rest.rpartition("@") if password_like else ("", "", rest)
     if at and ":" in userinfo:
         user, _, password = userinfo.partition(":")
         _remember(password)
         rest = f"{user}:{quote(unquote(password), safe='')}@{hostpart}"
     else:
         hostpart = rest
-    _, q, query = hostpart.partition("?")
+    path, q, query = hostpart.partition("?")
     if q:
+        pairs = []
         for pair in query.split("&"):
             key, eq, value = pair.partition("=")
-            if eq and unquote_plus(key).strip().lower() in _SECRET_KEYS:
+            if eq and unquote_plus(key).strip().lower() not in _SHOWN_KEYS:
                 _remember(value)
+            # re-encoded, so that an '@' in a value is not taken for the user-info's end
+            pairs.append(f"{key}{eq}{quote_plus(unquote_plus(value))}")
+        rest = rest[: len(rest) - len(hostpart)] + f"{path}?{'&'.join(pairs)}"
     return f"{scheme}://{rest}"
 
 
@@ -113,7 +134,7 @@ def display_url(url: str) -> str:
 
     try:
         parsed = make_url(url)
-        query = {k: ("***" if k.lower() in _SECRET_KEYS else v) for k, v in parsed.query.items()}
+        query = {k: (v if k.lower() in _SHOWN_KEYS else "***") for k, v in parsed.query.items()}
         shown = parsed.set(query=query).render_as_string(hide_password=True)
     except (ArgumentError, ValueError):
         shown = url.split("://", 1)[0] + "://***"
