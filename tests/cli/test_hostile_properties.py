@@ -8,6 +8,7 @@ unchanged. Bounded (``max_examples``) to stay under a minute; marked slow.
 
 from __future__ import annotations
 
+import contextlib
 from pathlib import Path
 
 import click
@@ -100,8 +101,9 @@ def test_every_valued_option(target: tuple[list[str], click.Command, str], value
     before = store.checksum()
     stage = STAGE if with_stage and any(p.name == "topology" for p in cmd.params) else []
     stage = [s for k, s in enumerate(stage) if not (stage[k - 1 if k % 2 else k] == option)]
-    result = CliRunner().invoke(cli, [*words, *_args(cmd, hostile_db, folder), *stage,
-                                      option, value], input="n\n")
+    with contextlib.chdir(folder):  # a value taken as an output file lands here
+        result = CliRunner().invoke(cli, [*words, *_args(cmd, hostile_db, folder), *stage,
+                                          option, value], input="n\n")
     _check(result)
     COUNT["cases"] += 1
     if result.exit_code == 2:
@@ -176,7 +178,8 @@ def test_urls_with_passwords(url: str, target: tuple[list[str], click.Command],
     words, cmd = target
     folder = tmp_path_factory.mktemp("pw")
     args = [a for a in _args(cmd, url, folder)]
-    result = CliRunner().invoke(cli, [*words, *args], input="n\n")
+    with contextlib.chdir(folder):
+        result = CliRunner().invoke(cli, [*words, *args], input="n\n")
     _check(result, (SECRET,))
     COUNT["cases"] += 1
 
