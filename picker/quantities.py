@@ -17,6 +17,9 @@ from __future__ import annotations
 
 import math
 import re
+import reprlib
+import sys
+import unicodedata
 from dataclasses import dataclass
 from typing import Literal, get_args
 
@@ -140,13 +143,36 @@ _PATTERNS = {k: (_regex(k, False), _regex(k, True)) for k in _UNITS}
 
 
 def _prefixed(num: str, prefix: str | None) -> float:
-    """The number times its SI prefix, read by quantiphy (BIPM SI Brochure table 7)."""
+    """The number times its SI prefix, the prefix's factor read by quantiphy (BIPM SI
+    Brochure table 7). The product is taken here: quantiphy reads ``1e308k`` as 1e308
+    with the unit "k", which would drop the prefix."""
     if not prefix:
         return float(num)
     from quantiphy import Quantity  # lazy: keeps `picker --help` light
 
     p = {"meg": "M", "MEG": "M", "Meg": "M", "K": "k", "μ": "µ"}.get(prefix, prefix)
-    return float(Quantity(f"{num}{p}").real)
+    return float(num) * float(Quantity(f"1{p}").real)  # overflow gives inf, refused later
+
+
+# Decimal digits of any script (full-width １０, Arabic-Indic ١٠, ...) read as their ASCII
+# digit, so a value is read whole or refused, never half-read (Unicode category Nd).
+_DIGITS = {c: str(unicodedata.decimal(chr(c))) for c in range(0x80, sys.maxunicode + 1)
+           if unicodedata.category(chr(c)) == "Nd"}
+
+
+def ascii_digits(text: str) -> str:
+    """``text`` with every decimal digit of another script replaced by its ASCII digit."""
+    return text.translate(_DIGITS) if not text.isascii() else text
+
+
+def _same_unit(written: str, unit: str) -> bool:
+    """Units compare without case, except the prefix after the slash: M is mega and m is
+    milli (SI), so ``V/MV`` is not ``V/mV``."""
+    if written.lower() != unit.lower():
+        return False
+    slash = unit.find("/")
+    return slash < 0 or slash + 1 >= len(unit) or (
+        unit[slash + 1] not in "mM" or written[slash + 1] == unit[slash + 1])
 
 
 def _match(text: str, kind: str) -> float | None:
@@ -168,9 +194,11 @@ def _match(text: str, kind: str) -> float | None:
     unit = None
     if unit_text:
         for u in _UNITS[kind]:
-            if u.text.lower() == unit_text.lower():
+            if _same_unit(unit_text, u.text):
                 unit = u
                 break
+        if unit is None:
+            return None
     if unit is not None and not unit.prefix_ok and prefix:
         return None
     if prefix and kind in ("price", "count", "ratio", "temperature"):
@@ -179,7 +207,7 @@ def _match(text: str, kind: str) -> float | None:
     if unit is None:
         return value
     if kind == "gain" and unit.text == "dB":
-        return float(10 ** (value / 20))
+        return math.inf if value / 20 > 308 else float(10 ** (value / 20))
     if kind == "temperature" and unit.text == "K":
         return value - 273.15
     return value * unit.scale
@@ -210,18 +238,23 @@ def parse(
     if kind == "amplitude":
         v = parse_amplitude(text, field)
         return v
-    if isinstance(text, bool):
-        raise BadValue(field, text, f"is not {_WHAT[kind]}")
+    if isinstance(text, bool) or not isinstance(text, str | int | float):
+        # a TOML list, table or date where a value belongs
+        raise BadValue(field, Brief(text), f"is not {_WHAT[kind]}")
     if isinstance(text, int | float):
-        value = float(text)
         shown: object = text
+        try:
+            value = float(text)
+        except OverflowError:
+            value = math.inf
     else:
         shown = text
         if len(text) > 200:
             raise BadValue(field, text[:20] + "...", f"is too long to be {_WHAT[kind]}")
-        got = _match(text, kind)
+        plain = ascii_digits(text)
+        got = _match(plain, kind)
         if got is None:
-            other = _guess_kind(text, kind)
+            other = _guess_kind(plain, kind)
             if other is not None:
                 raise BadValue(
                     field, text, f"is {_WHAT[other].split(' (')[0]}, but {_WHAT[kind]} is expected"
@@ -229,7 +262,9 @@ def parse(
             raise BadValue(field, text, f"is not {_WHAT[kind]}")
         value = got
     if not math.isfinite(value):
-        raise BadValue(field, shown, f"is not a finite number; expected {_WHAT[kind]}")
+        why = "is too large to be a finite number" if math.isinf(value) and "inf" not in str(shown).lower() else (
+            "is not a finite number")
+        raise BadValue(field, shown, f"{why}; expected {_WHAT[kind]}")
     signed = kind in _SIGNED if allow_negative is None else allow_negative
     if value < 0 and not signed:
         raise BadValue(field, shown, f"is negative; expected {_WHAT[kind]} >= 0")
@@ -247,12 +282,17 @@ def parse(
 def parse_amplitude(text: str | float | int, field: str = "amplitude") -> float:
     """Read a signal amplitude ('3Vpk', '6Vpp', '2.12Vrms', bare = peak); return the peak."""
     if isinstance(text, int | float) and not isinstance(text, bool):
-        value = float(text)
-    else:
-        got = _match(str(text), "amplitude")
+        try:
+            value = float(text)
+        except OverflowError:
+            value = math.inf
+    elif isinstance(text, str):
+        got = _match(ascii_digits(text[:200]), "amplitude")
         if got is None:
             raise BadValue(field, text, f"is not {_WHAT['amplitude']}")
         value = got
+    else:
+        raise BadValue(field, Brief(text), f"is not {_WHAT['amplitude']}")
     if not math.isfinite(value) or value <= 0:
         raise BadValue(field, text, "must be a finite amplitude above zero")
     return value
@@ -271,7 +311,9 @@ def parse_rails(text: str, field: str = "rails") -> tuple[float, float]:
 
     Returns (positive rail, negative rail) in volts, positive above negative.
     """
-    m = _RAIL.match(str(text))
+    if not isinstance(text, str | int | float) or isinstance(text, bool):
+        raise BadValue(field, Brief(text), "is not a pair of rails; write ±12, +12/-12, +5/0 or 5")
+    m = _RAIL.match(ascii_digits(str(text)[:200]))
     if m is None:
         raise BadValue(field, text, "is not a pair of rails; write ±12, +12/-12, +5/0 or 5")
     if m.group("sym") is not None:
@@ -282,13 +324,37 @@ def parse_rails(text: str, field: str = "rails") -> tuple[float, float]:
     else:
         v = float(m.group("single"))
         pos, neg = (v, 0.0) if v >= 0 else (0.0, v)
+    return check_rails(pos, neg, field, text)
+
+
+def check_rails(pos: float, neg: float, field: str, shown: object) -> tuple[float, float]:
+    """(pos, neg) if they are finite, in order and span at most 2 kV; else BadValue."""
     if not (math.isfinite(pos) and math.isfinite(neg)):
-        raise BadValue(field, text, "is not a finite pair of rails")
+        raise BadValue(field, shown, "is not a finite pair of rails")
     if pos <= neg:
-        raise BadValue(field, text, "needs the positive rail above the negative; e.g. +12/-12")
+        raise BadValue(field, shown, "needs the positive rail above the negative; e.g. +12/-12")
     if pos - neg > 2000:
-        raise BadValue(field, text, "spans more than 2 kV; no op-amp stage runs on that")
+        raise BadValue(field, shown, "spans more than 2 kV; no op-amp stage runs on that")
     return pos, neg
+
+
+_SHORT = reprlib.Repr()  # keyword arguments only from Python 3.12
+_SHORT.maxlevel, _SHORT.maxlist, _SHORT.maxdict = 3, 4, 4
+_SHORT.maxstring = _SHORT.maxother = 40
+
+
+class Brief:
+    """A value shown in an error message in a few characters, however long or deeply
+    nested it is (a TOML array 50,000 levels deep must not blow up the message)."""
+
+    def __init__(self, value: object) -> None:
+        self.value = value
+
+    def __repr__(self) -> str:
+        v = self.value
+        kind = "a list" if isinstance(v, list | tuple) else "a table" if isinstance(v, dict) else ""
+        shown = _SHORT.repr(self.value)
+        return f"{shown} ({kind})" if kind else shown
 
 
 def _sig(x: float, prec: int) -> str:
@@ -348,7 +414,7 @@ def si(value: float, kind: Kind) -> str:
 def as_number(text: str, field: str) -> float:
     """A plain number (no unit): used for unit-free settings like margins."""
     try:
-        v = float(text)
+        v = float(ascii_digits(text) if isinstance(text, str) else text)
     except (TypeError, ValueError):
         raise BadValue(field, text, "is not a number") from None
     if not math.isfinite(v):
@@ -356,4 +422,4 @@ def as_number(text: str, field: str) -> float:
     return v
 
 
-__all__ = ["KINDS", "Kind", "fmt", "parse", "parse_amplitude", "parse_rails", "as_number"]
+__all__ = ["KINDS", "Brief", "Kind", "ascii_digits", "check_rails", "fmt", "parse", "parse_amplitude", "parse_rails", "as_number"]

@@ -9,6 +9,7 @@ from __future__ import annotations
 import importlib
 import importlib.util
 import sys
+import warnings
 from typing import Any
 
 import click
@@ -76,10 +77,25 @@ class PickerGroup(click.Group):
         error is one line on stderr and exit code 2; anything else is a bug (exit 1).
         """
         given = sys.argv[1:] if args is None else list(args)
+        engine = sys.modules.get("picker.store.engine")  # not imported: nothing remembered
+        if engine is not None:
+            engine.forget_secrets()
         for i, arg in enumerate(given, start=1):
             if "\x00" in str(arg):  # a shell cannot pass one; a program calling us can
                 _error(f"argument {i} contains a NUL character; remove it")
                 return EXIT_BAD_INPUT
+        # Warnings (numpy's RuntimeWarning on an overflow, say) are held while the command
+        # runs: a refused command shows its one line and nothing else; a finished one shows
+        # them after its output. The filters are left as they are (an "error" filter still
+        # raises).
+        with warnings.catch_warnings(record=True) as held:
+            code = self._run(args, prog_name, **extra)
+        if code == 0:
+            for w in held:
+                warnings.showwarning(w.message, w.category, w.filename, w.lineno, w.file, w.line)
+        return code
+
+    def _run(self, args: list[str] | None, prog_name: str, **extra: Any) -> int:
         try:
             rv = super().main(args, prog_name, standalone_mode=False, **extra)
         except click.exceptions.Exit as exc:

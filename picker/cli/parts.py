@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import re
 import sys
 from pathlib import Path
 from typing import Any
@@ -11,28 +10,6 @@ import click
 
 from picker.cli.params import db_option, format_option, open_store
 from picker.errors import BadValue, Conflict
-
-_WHERE = re.compile(r"^\s*([A-Za-z_]+)\s*(>=|<=|!=|=|>|<|~)\s*(.+?)\s*$")
-
-
-def _condition(text: str) -> Any:
-    from picker.fields import BY_NAME
-    from picker.quantities import parse
-    from picker.store import Condition
-    from picker.store.records import field_name
-
-    m = _WHERE.match(text)
-    if m is None:
-        raise BadValue("--where", text, "is not FIELD OP VALUE; e.g. 'slew>=1V/us' or 'tech~cmos'")
-    name = field_name(m.group(1), "--where")
-    op, raw = m.group(2), m.group(3)
-    kind = BY_NAME[name].kind
-    if kind == "text" or op == "~":
-        if kind != "text":
-            raise BadValue("--where", text, f"uses '~' on {name}, a number; use >=, <=, = ...")
-        return Condition(name, "~" if op == "~" else op, raw)
-    value = parse(raw, kind, f"--where {name}", allow_negative=True)  # type: ignore[arg-type]
-    return Condition(name, op, value)
 
 
 def _assignments(pairs: tuple[str, ...], where: str) -> dict[str, str]:
@@ -45,6 +22,14 @@ def _assignments(pairs: tuple[str, ...], where: str) -> dict[str, str]:
         key, value = pair.split("=", 1)
         out[field_name(key, where)] = value
     return out
+
+
+def _whole(value: Any) -> Any:
+    """A whole number read as a float (45.0) as the integer it is (exactly representable
+    ones, below 2**53); anything else, unknown (NaN) included, as it is."""
+    if isinstance(value, float) and value.is_integer() and abs(value) < 2**53:
+        return int(value)
+    return value
 
 
 def _who() -> str:
@@ -73,7 +58,6 @@ def list_(wheres: tuple[str, ...], in_stock: bool, columns: str | None, fmt: str
     from picker.report.tables import LIST_COLUMNS, table, to_json
     from picker.store.records import field_name
 
-    conditions = [_condition(w) for w in wheres]
     cols = (
         [field_name(c, "--columns") for c in columns.split(",") if c.strip()]
         if columns else list(LIST_COLUMNS)
@@ -81,14 +65,14 @@ def list_(wheres: tuple[str, ...], in_stock: bool, columns: str | None, fmt: str
     if "label" not in cols:
         cols.insert(0, "label")
     store = open_store(db)
-    frame = store.parts_frame(None if fmt == "json" else cols, conditions,
+    frame = store.parts_frame(None if fmt == "json" else cols, list(wheres),
                               min_qty=1 if in_stock else None)
     rows = frame.reset_index().to_dict("records")
     if fmt == "json":
         from picker.fields import FIELDS
 
         names = [f.name for f in FIELDS]
-        click.echo(to_json([{k: r.get(k) for k in names} for r in rows]))
+        click.echo(to_json([{k: _whole(r.get(k)) for k in names} for r in rows]))
     elif fmt == "csv":
         from picker.store.csvio import write_csv
 
@@ -111,18 +95,31 @@ def show(label: str, as_json: bool, db: str | None) -> None:
 
 
 @parts.command()
-def fields() -> None:
-    """The part fields: name, short name, unit and meaning."""
+@db_option
+def fields(db: str | None) -> None:
+    """The part fields: name, other names import and --where accept, unit and meaning.
+
+    The fields are the same in every stockroom of this picker, so --db is accepted (a
+    script may pass it to every command) but not opened.
+    """
     from tabulate import tabulate
 
     from picker.fields import FIELDS
     from picker.store.records import ALIASES
 
-    short = {v: k for k, v in ALIASES.items() if k != v and len(k) < len(v)}
+    others: dict[str, list[str]] = {}
+    for alias, name in ALIASES.items():
+        if alias != name:
+            others.setdefault(name, []).append(alias)
     click.echo(tabulate(
-        [[f.name, short.get(f.name, ""), f.header, f.help] for f in FIELDS],
-        headers=["field", "short", "header", "meaning"], disable_numparse=True,
+        [[f.name, ", ".join(others.get(f.name, [])), _unit(f.header), f.help] for f in FIELDS],
+        headers=["field", "also", "unit in tables", "meaning"], disable_numparse=True,
     ))
+
+
+def _unit(header: str) -> str:
+    """'SR [V/µs]' -> 'V/µs' (a CSV cell is in the SI unit of the field name, though)."""
+    return header.partition("[")[2].rstrip("]")
 
 
 @parts.command()

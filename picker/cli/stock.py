@@ -208,8 +208,8 @@ def count(part: str, qty: int, by: str | None, note: str | None, db: str | None)
 @stock.command()
 @click.argument("part", required=False)
 @click.option("--since", metavar="DATE",
-              help="only movements from this date or time on (2026-01-31, 2026-01-31T14:00; "
-              "local time)")
+              help="only movements from this date or time on (2026-01-31, 2026-01-31T14:00 in "
+              "local time; or back from now: 12h, 7d, 2w)")
 @format_option
 @db_option
 def log(part: str | None, since: str | None, fmt: str, db: str | None) -> None:

@@ -33,7 +33,7 @@ from pathlib import Path
 from typing import Any, Literal, get_args
 
 from picker.errors import BadRequirement, BadValue
-from picker.quantities import as_number, parse, parse_amplitude, parse_rails
+from picker.quantities import Brief, as_number, check_rails, parse, parse_amplitude, parse_rails
 from picker.stages import kind, kinds
 
 Topology = Literal["inverting", "non-inverting", "follower", "difference"]
@@ -72,6 +72,35 @@ KEYS: dict[str, str] = {
 }
 
 Label = Callable[[str], str]
+
+#: Physical ranges a stage value must lie in (common practice for op-amp stages, no
+#: source): beyond them, derived quantities (loop gain, time steps, noise integrals)
+#: overflow or underflow a float, and no real stage is built there. key -> (low, high, unit)
+RANGES: dict[str, tuple[float, float, str]] = {
+    "gain": (1e-3, 1e6, "V/V (-60 dB to 120 dB)"),
+    "freq": (1e-3, 1e9, "Hz (1 mHz to 1 GHz)"),
+    "vin": (1e-9, 1e3, "V (1 nV to 1 kV)"),
+    "vout": (1e-9, 1e3, "V (1 nV to 1 kV)"),
+    "load": (1e-3, 1e12, "Ω (1 mΩ to 1 TΩ)"),
+    "source": (0.0, 1e12, "Ω (0 to 1 TΩ)"),
+    "rf": (1e-3, 1e12, "Ω (1 mΩ to 1 TΩ)"),
+    "network": (1e-3, 1e12, "Ω (1 mΩ to 1 TΩ; 0 where a short is allowed)"),
+    "gain-error": (1e-9, 1.0, "(1 ppb to 100%)"),
+    "offset-max": (1e-12, 1e3, "V (1 pV to 1 kV)"),
+    "noise-max": (1e-12, 1e3, "V (1 pV to 1 kV)"),
+    "temp": (-273.15, 500.0, "°C (-273.15 °C to 500 °C)"),
+    "qty": (1, 1e9, "channels (1 to 1,000,000,000)"),
+    "margin": (1.0, 100.0, "(1 to 100)"),
+}
+
+
+def _ranged(key: str, value: float, name: str, raw: Any, what: str = "") -> float:
+    """``value`` if it lies in RANGES[key], else BadValue naming the range."""
+    lo, hi, unit = RANGES[key]
+    if not lo <= value <= hi:
+        raise BadValue(name, Brief(raw), f"is outside {what or 'the range'} {lo:g} to {hi:g} "
+                       f"{unit}")
+    return value
 
 
 def option_label(key: str) -> str:
@@ -281,15 +310,22 @@ def normal_key(key: str, where: str = "--") -> str:
 
 
 def _temp_range(text: Any, name: str) -> tuple[float, float]:
+    lo, hi = _temps(text, name)
+    return _ranged("temp", lo, name, text), _ranged("temp", hi, name, text)
+
+
+def _temps(text: Any, name: str) -> tuple[float, float]:
     if isinstance(text, list | tuple):
         if len(text) != 2:
-            raise BadValue(name, text, "needs two temperatures, low and high")
+            raise BadValue(name, Brief(text), "needs two temperatures, low and high")
         lo, hi = (parse(t, "temperature", name) for t in text)
         return lo, hi
     if isinstance(text, int | float) and not isinstance(text, bool):
         v = parse(text, "temperature", name)
         return v, v
-    s = str(text)
+    if not isinstance(text, str):
+        raise BadValue(name, Brief(text), "is not a temperature or a range, e.g. -40..85C")
+    s = text
     if ".." in s:
         a, b = s.split("..", 1)
         unit = "".join(ch for ch in b if not (ch.isdigit() or ch in "+-. "))
@@ -302,12 +338,12 @@ def _temp_range(text: Any, name: str) -> tuple[float, float]:
 def _bool(value: Any, name: str) -> bool:
     if isinstance(value, bool):
         return value
-    s = str(value).strip().lower()
+    s = str(value).strip().lower() if isinstance(value, str | int) else ""
     if s in ("1", "true", "yes", "on"):
         return True
     if s in ("0", "false", "no", "off"):
         return False
-    raise BadValue(name, value, "is not yes or no")
+    raise BadValue(name, Brief(value), "is not yes or no")
 
 
 def _optional(value: Any) -> bool:
@@ -322,14 +358,16 @@ def _rms_stripped(value: Any) -> Any:
 
 def _network(value: Any, name: str) -> dict[str, float]:
     if not isinstance(value, Mapping):
-        raise BadValue(name, value, "is not a table of resistors, e.g. {rf = '47k', rg = '4k7'}")
+        raise BadValue(name, Brief(value),
+                       "is not a table of resistors, e.g. {rf = '47k', rg = '4k7'}")
     out: dict[str, float] = {}
     for k, v in value.items():
         key = str(k).lower()
         if isinstance(v, str) and v.strip().lower() in ("inf", "open"):
             out[key] = math.inf
         else:
-            out[key] = parse(v, "resistance", f"{name}.{key}")
+            r = parse(v, "resistance", f"{name}.{key}")
+            out[key] = r if r == 0 else _ranged("network", r, f"{name}.{key}", v)
     return out
 
 
@@ -367,6 +405,26 @@ def _assume(value: Any, name: str) -> dict[str, float]:
     return out
 
 
+# The legs that may be open (inf) or shorted (0) without leaving the stage undefined:
+# an open rg makes a non-inverting stage a follower; a shorted rf makes it (or a
+# follower) unity gain; a shorted rp is a plain wire. Any other open or shorted leg
+# leaves a node floating or the gain at 0 or infinity.
+_OPEN_OK: dict[str, tuple[str, ...]] = {"non-inverting": ("rg",)}
+_SHORT_OK: dict[str, tuple[str, ...]] = {
+    "inverting": ("rp",), "non-inverting": ("rf", "rp"), "follower": ("rf", "rp"),
+}
+
+
+def _check_network(topology: str, network: Mapping[str, float], name: str) -> None:
+    for leg, r in network.items():
+        if math.isinf(r) and leg not in _OPEN_OK.get(topology, ()):
+            raise BadValue(f"{name}.{leg}", "inf", f"cannot be open in a {topology} stage; "
+                           "give a resistance")
+        if r == 0 and leg not in _SHORT_OK.get(topology, ()):
+            raise BadValue(f"{name}.{leg}", r, f"cannot be 0 Ω in a {topology} stage; give a "
+                           "resistance above 0")
+
+
 def _build(values: Mapping[str, tuple[Any, str]]) -> Requirement:
     """Parse every (value, where) under its key and make the requirement."""
 
@@ -382,37 +440,39 @@ def _build(values: Mapping[str, tuple[Any, str]]) -> Requirement:
     for key, (raw, _) in values.items():
         name = lab(key)
         if key == "topology":
-            t = str(raw).strip().lower().replace("_", "-")
+            t = raw.strip().lower().replace("_", "-") if isinstance(raw, str) else ""
             t = {"noninverting": "non-inverting", "non-inv": "non-inverting",
                  "inv": "inverting", "buffer": "follower", "diff": "difference"}.get(t, t)
             if t not in kinds():
-                raise BadValue(name, raw, "is not a topology; use one of " + ", ".join(kinds()))
+                raise BadValue(name, Brief(raw),
+                               "is not a topology; use one of " + ", ".join(kinds()))
             kw["topology"] = t
         elif key == "gain":
-            kw["gain"] = parse(raw, "gain", name, allow_zero=False)
+            kw["gain"] = _ranged(key, parse(raw, "gain", name, allow_zero=False), name, raw)
         elif key in ("vin", "vout"):
-            kw[KEYS[key]] = parse_amplitude(raw, name)
+            kw[KEYS[key]] = _ranged(key, parse_amplitude(raw, name), name, raw)
         elif key == "freq":
-            kw["freq_hz"] = parse(raw, "frequency", name, allow_zero=False)
+            kw["freq_hz"] = _ranged(key, parse(raw, "frequency", name, allow_zero=False),
+                                    name, raw)
         elif key == "ref":
             kw["ref_v"] = None if _optional(raw) else parse(raw, "voltage", name)
         elif key == "load":
-            kw["load_ohm"] = None if _optional(raw) else parse(raw, "resistance", name,
-                                                                allow_zero=False)
+            kw["load_ohm"] = None if _optional(raw) else _ranged(
+                key, parse(raw, "resistance", name, allow_zero=False), name, raw)
         elif key == "source":
-            kw["source_ohm"] = parse(raw, "resistance", name)
+            kw["source_ohm"] = _ranged(key, parse(raw, "resistance", name), name, raw)
         elif key == "rails":
             if isinstance(raw, list | tuple):
                 if len(raw) != 2:
-                    raise BadValue(name, raw, "needs two rails, e.g. [12, -12]")
+                    raise BadValue(name, Brief(raw), "needs two rails, e.g. [12, -12]")
                 a, b = (parse(r, "voltage", name) for r in raw)
-                kw["rail_pos"], kw["rail_neg"] = max(a, b), min(a, b)
-                if a == b:
-                    raise BadValue(name, raw, "needs two different rails")
+                kw["rail_pos"], kw["rail_neg"] = check_rails(max(a, b), min(a, b), name,
+                                                             Brief(raw))
             else:
-                kw["rail_pos"], kw["rail_neg"] = parse_rails(str(raw), name)
+                kw["rail_pos"], kw["rail_neg"] = parse_rails(raw, name)
         elif key == "gain-error":
-            kw["gain_error"] = parse(raw, "ratio", name, allow_zero=False)
+            kw["gain_error"] = _ranged(key, parse(raw, "ratio", name, allow_zero=False),
+                                       name, raw)
         elif key == "tolerance":
             kw["tolerance"] = parse(raw, "ratio", name)
         elif key == "tolerance-rule":
@@ -424,16 +484,22 @@ def _build(values: Mapping[str, tuple[Any, str]]) -> Requirement:
             kw["phase_error_deg"] = None if _optional(raw) else parse(
                 raw, "angle", name, allow_negative=False, allow_zero=False)
         elif key in ("offset-max", "noise-max"):
-            kw[KEYS[key]] = None if _optional(raw) else parse(
-                _rms_stripped(raw), "voltage", name, allow_negative=False, allow_zero=False)
+            kw[KEYS[key]] = None if _optional(raw) else _ranged(key, parse(
+                _rms_stripped(raw), "voltage", name, allow_negative=False, allow_zero=False),
+                name, raw)
         elif key == "temp":
             kw["temp_min_c"], kw["temp_max_c"] = _temp_range(raw, name)
         elif key == "qty":
-            kw["qty"] = int(parse(raw, "count", name, allow_zero=False))
+            kw["qty"] = int(_ranged(key, parse(raw, "count", name, allow_zero=False), name, raw))
         elif key == "margin":
-            kw["margin"] = raw if isinstance(raw, float) else as_number(str(raw), name)
+            if isinstance(raw, bool) or not isinstance(raw, str | int | float):
+                raise BadValue(name, Brief(raw), "is not a number, e.g. 1.25")
+            kw["margin"] = as_number(str(raw), name)
+            if kw["margin"] > RANGES[key][1]:  # below 1 is explained by validate()
+                _ranged(key, kw["margin"], name, raw)
         elif key == "rf":
-            kw["rf_ohm"] = parse(raw, "resistance", name, allow_zero=False)
+            kw["rf_ohm"] = _ranged(key, parse(raw, "resistance", name, allow_zero=False),
+                                   name, raw)
             kw["rf_pinned"] = True
         elif key in ("mains", "light-load-swing"):
             kw[KEYS[key]] = _bool(raw, name)
@@ -460,6 +526,8 @@ def _build(values: Mapping[str, tuple[Any, str]]) -> Requirement:
         default = f.default_factory() if f.default_factory is not MISSING else f.default
         object.__setattr__(req, f.name, kw.get(f.name, default))
     req.validate(lab)
+    if req.network is not None:
+        _check_network(req.topology, req.network, lab("network"))
     return req
 
 
@@ -475,6 +543,9 @@ def read_design(path: str | Path) -> dict[str, Any]:
                        "design file") from None
     except tomllib.TOMLDecodeError as exc:
         raise BadRequirement(f"{where}not valid TOML: {exc}") from None
+    except RecursionError:  # arrays or tables nested thousands deep
+        raise BadRequirement(f"{where}nests arrays or tables too deeply to be a design "
+                             "file; write each value plainly, e.g. gain = 10") from None
     except OSError as exc:
         raise BadValue("--design", str(path), f"cannot be read ({exc.strerror})") from None
     except ValueError:  # a NUL in the path, or bytes that are not UTF-8

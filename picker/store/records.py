@@ -23,6 +23,9 @@ for _f in FIELDS:
     ALIASES[_SUFFIX.sub("", _f.name)] = _f.name
 ALIASES.update({"sr": "slew_v_per_s", "ro": "rout_ohm", "vs_min": "supply_min_v",
                 "vs_max": "supply_max_v"})
+# the table headers without a unit (`input`, `ch`, `reorder at`) name their field too; a
+# header with a unit ("SR [V/µs]") does not, as a CSV cell is read in SI units
+ALIASES.update({_f.header.lower(): _f.name for _f in FIELDS if "[" not in _f.header})
 
 TEXT_MAX = 10_000
 # The largest quantity a stockroom holds: import, edit, stock add and restore accept up
@@ -39,7 +42,7 @@ def field_name(name: str, where: str) -> str:
     if key in ALIASES:
         return ALIASES[key]
     raise BadValue(
-        where, name, "is not a part field; see `picker parts show --fields` for the names"
+        where, name, "is not a part field; `picker parts fields` lists the names"
     )
 
 
@@ -111,7 +114,10 @@ def convert(name: str, raw: object, where: str, *, from_csv: bool = False) -> ob
     else:
         if math.isfinite(as_float):
             number = as_float  # else let the parser explain it
-    value = parse(number, f.kind, where, allow_negative=f.signed or None, allow_zero=not f.positive)  # type: ignore[arg-type]
+    # a field that must be above zero (supply span, GBW, ...) is never negative, even of
+    # a kind that may be (a voltage)
+    signed = f.signed or (False if f.positive else None)
+    value = parse(number, f.kind, where, allow_negative=signed, allow_zero=not f.positive)  # type: ignore[arg-type]
     if f.kind == "count":
         if value > QTY_MAX:
             raise BadValue(where, raw, "is more than a stockroom can hold")

@@ -15,7 +15,8 @@ from typing import TYPE_CHECKING, Any
 from picker.errors import Conflict, NotFound, StoreError
 from picker.fields import FIELDS, NUMERIC
 from picker.store import migrate
-from picker.store.engine import is_sqlite, make_engine, redact, resolve_url
+from picker.store.engine import display_url, is_sqlite, make_engine, redact, resolve_url
+from picker.store.query import Condition, clause
 from picker.store.records import check_consistency
 
 if TYPE_CHECKING:
@@ -43,15 +44,6 @@ class ImportReport:
     updated: int
     dry_run: bool
     changes: tuple[FieldChange, ...] = ()
-
-
-@dataclass(frozen=True)
-class Condition:
-    """One list filter: field, operator (>=, <=, >, <, =, !=, ~) and SI value or text."""
-
-    field: str
-    op: str
-    value: float | str
 
 
 def _now() -> datetime:
@@ -92,7 +84,7 @@ class Store:
     def where(self) -> str:
         if is_sqlite(self.url):
             return self.url.split("///", 1)[-1] or ":memory:"
-        return redact(self.url)
+        return display_url(self.url)
 
     def upgrade(self, revision: str = "head") -> None:
         from sqlalchemy.exc import DatabaseError
@@ -119,13 +111,14 @@ class Store:
     def parts_frame(
         self,
         columns: Sequence[str] | None = None,
-        conditions: Sequence[Condition] = (),
+        conditions: Sequence[Condition | str] = (),
         min_qty: int | None = None,
     ) -> pd.DataFrame:
         """Parts as a DataFrame indexed by label; numeric columns float64, NaN = unknown.
 
         Only the named columns are read (all fields and updated_at when None); conditions
-        and a minimum quantity are applied in SQL so fewer rows travel.
+        (a Condition or its ``--where`` text, see picker.store.query) and a minimum
+        quantity are applied in SQL so fewer rows travel.
         """
         import pandas as pd
 
@@ -137,7 +130,7 @@ class Store:
     def parts_columns(
         self,
         columns: Sequence[str],
-        conditions: Sequence[Condition] = (),
+        conditions: Sequence[Condition | str] = (),
         min_qty: int | None = None,
     ) -> tuple[Any, dict[str, Any]]:
         """Labels and numeric columns as float64 numpy arrays (NaN = unknown), by label.
@@ -150,12 +143,12 @@ class Store:
             raise ValueError(f"parts_columns reads numeric fields only, not {bad}")
         return self._read(columns, conditions, min_qty)
 
-    def _read(self, names: Sequence[str], conditions: Sequence[Condition],
+    def _read(self, names: Sequence[str], conditions: Sequence[Condition | str],
               min_qty: int | None) -> tuple[Any, dict[str, Any]]:
         from picker.store.columns import read_columns
         from picker.store.models import parts
 
-        where = [_clause(c) for c in conditions]
+        where = [clause(c) for c in conditions]
         if min_qty is not None:
             where.append(parts.c.qty >= min_qty)
         return read_columns(self.engine, names, where)
@@ -206,7 +199,25 @@ class Store:
 
     # -- writes ----------------------------------------------------------------
     def add(self, values: Mapping[str, Any]) -> None:
+        label = values.get("label")
+        if label is not None and label in self._existing([str(label)]):
+            raise Conflict(f"{label} is already in the stockroom; change it with "
+                           f"`picker parts edit {label} FIELD=VALUE` or choose another label")
         self.import_records([values], update=False)
+
+    def _existing(self, labels: Sequence[str]) -> set[str]:
+        """Which of ``labels`` the stockroom holds."""
+        from sqlalchemy import select
+
+        from picker.store.models import parts
+
+        found: set[str] = set()
+        with self.engine.connect() as conn:
+            for i in range(0, len(labels), 500):
+                chunk = list(labels[i:i + 500])
+                found.update(x[0] for x in conn.execute(
+                    select(parts.c.label).where(parts.c.label.in_(chunk))))
+        return found
 
     def edit(self, label: str, changes: Mapping[str, Any], by: str = "") -> None:
         """Change fields of one part. A new quantity is logged as a count movement
@@ -416,23 +427,6 @@ def _full(r: Mapping[str, Any]) -> dict[str, Any]:
     out["qty"] = 0 if out["qty"] is None else out["qty"]
     out["updated_at"] = r.get("updated_at") or _now()
     return out
-
-
-def _clause(cond: Condition) -> Any:
-    from picker.store.models import parts
-
-    col = parts.c[cond.field]
-    if cond.op == "~":
-        return col.ilike(f"%{cond.value}%")
-    ops: dict[str, Callable[[Any, Any], Any]] = {
-        ">=": lambda c, v: c >= v,
-        "<=": lambda c, v: c <= v,
-        ">": lambda c, v: c > v,
-        "<": lambda c, v: c < v,
-        "=": lambda c, v: c == v,
-        "!=": lambda c, v: c != v,
-    }
-    return ops[cond.op](col, cond.value)
 
 
 def _integrity_message(exc: Exception, label: str) -> str:

@@ -21,10 +21,11 @@ StoreError, never a traceback.
 from __future__ import annotations
 
 import math
+import re
 from collections.abc import Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass
-from datetime import UTC, date, datetime
+from datetime import UTC, date, datetime, timedelta
 from typing import TYPE_CHECKING, Any, Literal
 
 from picker.errors import BadValue, Conflict, NotFound, PickerError, StoreError
@@ -117,18 +118,33 @@ def _checked(qty: int, by: str, note: str | None, *,
             _name(note, "--note", NOTE_MAX, required=False))
 
 
-def parse_since(text: str) -> datetime:
-    """A --since value (ISO date or date-time; local time unless it carries an offset)."""
+_AGO = re.compile(r"^(\d{1,6})\s*(h|d|w)$", re.IGNORECASE)
+_AGO_UNIT = {"h": timedelta(hours=1), "d": timedelta(days=1), "w": timedelta(weeks=1)}
+
+
+def parse_since(text: str, now: datetime | None = None) -> datetime:
+    """A --since value: an ISO date or date-time (local time unless it carries an
+    offset), or a time back from ``now``: ``12h``, ``7d``, ``2w`` (hours, days, weeks)."""
     raw = text.strip()
+    ago = _AGO.match(raw)
+    if ago is not None:
+        try:
+            return (now or datetime.now(UTC)) - int(ago.group(1)) * _AGO_UNIT[ago.group(2).lower()]
+        except OverflowError:  # further back than the calendar goes: everything
+            return datetime.min.replace(tzinfo=UTC)
     try:
         when = datetime.fromisoformat(raw)
     except ValueError:
         raise BadValue(
-            "--since", text, "is not a date; write 2026-01-31 or 2026-01-31T14:00"
+            "--since", text, "is not a date; write 2026-01-31, 2026-01-31T14:00 or 7d "
+            "(also 12h, 2w)"
         ) from None
-    if when.tzinfo is None:
-        when = when.astimezone()  # the user's local time zone
-    return when.astimezone(UTC)
+    try:
+        if when.tzinfo is None:
+            when = when.astimezone()  # the user's local time zone
+        return when.astimezone(UTC)
+    except (OverflowError, ValueError):  # the first or last day of the calendar
+        return (datetime.min if when.year < 2 else datetime.max).replace(tzinfo=UTC)
 
 
 def packages_needed(channels_needed: int, channels_per_package: int | None) -> int:
