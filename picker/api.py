@@ -133,7 +133,7 @@ class PartReport:
 
     def to_json(self) -> dict[str, Any]:
         """``picker why --json``: part, spec, verdict and each check's record (SI)."""
-        from picker.checks.accuracy import phase_deg
+        from picker.checks.gain import phase_deg
 
         phase = float(phase_deg(self.parts, self.spec)[0])
         return {"part": self.part, "spec": self.spec.to_json(), "verdict": self.verdict,

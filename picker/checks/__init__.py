@@ -93,10 +93,10 @@ class Check:
 
 
 def _registry() -> tuple[Check, ...]:
-    from picker.checks import accuracy, limits
+    from picker.checks import accuracy, gain, limits
 
-    return (limits.SWING, limits.COMMON_MODE, limits.SLEW, accuracy.GAIN_ACCURACY,
-            accuracy.PHASE, limits.OUTPUT_CURRENT, limits.SUPPLY, accuracy.OFFSET, accuracy.NOISE,
+    return (limits.SWING, limits.COMMON_MODE, limits.SLEW, gain.GAIN_ACCURACY,
+            gain.PHASE, limits.OUTPUT_CURRENT, limits.SUPPLY, accuracy.OFFSET, accuracy.NOISE,
             limits.STOCK)
 
 

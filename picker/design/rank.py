@@ -77,7 +77,7 @@ class Selection:
     def phases(self, rows: Sequence[int]) -> list[float | None]:
         """The phase shift of each row's closed-loop gain at the top frequency, degrees
         from the ideal (None: unknown), computed for these rows only."""
-        from picker.checks.accuracy import phase_deg
+        from picker.checks.gain import phase_deg
 
         if not len(rows):
             return []
