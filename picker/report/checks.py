@@ -7,12 +7,15 @@ Selection); strings are built only for the rows shown.
 from __future__ import annotations
 
 import math
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING
 
 from picker.quantities import Kind, fmt
 
 if TYPE_CHECKING:
     from picker.checks import CheckResult, CheckTable, Parts
+    from picker.design.misses import Move
+    from picker.design.rank import Selection
+    from picker.design.requirement import Requirement
     from picker.design.spec import Spec
 
 RULE = "-"
@@ -33,7 +36,7 @@ def percent(margin: float, failing: bool) -> str:
     return f"{text}%"
 
 
-def stage_line(req: Any) -> str:
+def stage_line(req: Requirement) -> str:
     """One line naming the stage as asked."""
     gain = "" if req.topology == "follower" else (
         f" x{_g(req.gain)} ({_g(20 * math.log10(req.gain), 3)} dB)")
@@ -122,7 +125,7 @@ def _needed(spec: Spec) -> dict[str, tuple[str, ...]]:
 
 # -- picker pick ----------------------------------------------------------------------------
 
-def pick_text(sel: Any, max_listed: int | None = None) -> str:
+def pick_text(sel: Selection, max_listed: int | None = None) -> str:
     """``picker pick``: accepted (ranked), unverified, rejected with reasons, nearest misses.
 
     ``max_listed`` caps how many accepted (best first), unverified and rejected parts
@@ -196,7 +199,7 @@ def _count(x: float) -> str:
     return "-" if math.isnan(x) else str(int(x))
 
 
-def _move(m: Any) -> str:
+def _move(m: Move) -> str:
     label = {"freq": "freq", "amplitude": "output amplitude", "gain": "gain",
              "load": "load"}[m.axis]
     if m.value is None:
