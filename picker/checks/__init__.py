@@ -86,8 +86,11 @@ class Check:
     def check(self, parts: Parts, spec: Spec) -> CheckResult:
         """Run the check and apply the rule for unknown values (module docstring)."""
         r = self.run(parts, spec)
-        missing = np.zeros(len(parts), dtype=bool)
-        for f in self.needed(spec):
+        needed = self.needed(spec)
+        if not needed:
+            return r
+        missing = np.isnan(parts[needed[0]])
+        for f in needed[1:]:
             missing |= np.isnan(parts[f])
         return unknown_unless_failing(r, missing)
 

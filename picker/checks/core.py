@@ -140,6 +140,13 @@ def merged(pick_b: npt.NDArray[np.bool_], a: Coded, b: Coded) -> Coded:
     """Per part b's word where ``pick_b``, else a's."""
     words = a.words + tuple(w for w in b.words if w not in a.words)
     remap = np.array([words.index(w) for w in b.words], dtype=np.int8)
+    one_a, one_b = a.codes.strides == (0,), b.codes.strides == (0,)
+    if one_a and one_b and len(a.codes):  # one word each side (the usual case)
+        wa, wb = int(a.codes[0]), int(remap[b.codes[0]])
+        if wa == wb:
+            return Coded(a.codes, words)
+        if (wa, wb) == (0, 1):
+            return Coded(pick_b.view(np.int8), words)
     return Coded(np.where(pick_b, remap[b.codes], a.codes).astype(np.int8), words)
 
 
@@ -211,6 +218,9 @@ def _num(x: float) -> float | None:
 
 def at_least(need: npt.ArrayLike, has: npt.ArrayLike) -> Array:
     """Margin has/need of a 'has >= need' limit (need 0: ±inf by the sign of has)."""
+    if np.ndim(need) == 0 and float(need) != 0:  # type: ignore[arg-type]  # one need for all
+        with np.errstate(invalid="ignore"):
+            return np.asarray(has, float) / float(need)  # type: ignore[arg-type]
     need_a, has_a = np.broadcast_arrays(np.asarray(need, float), np.asarray(has, float))
     with np.errstate(divide="ignore", invalid="ignore"):
         m = has_a / need_a
@@ -220,6 +230,9 @@ def at_least(need: npt.ArrayLike, has: npt.ArrayLike) -> Array:
 
 def at_most(need: npt.ArrayLike, has: npt.ArrayLike) -> Array:
     """Margin need/has of a 'has <= need' limit (has 0: inf)."""
+    if np.ndim(need) == 0 and float(need) > 0:  # type: ignore[arg-type]  # need/0 is inf
+        with np.errstate(divide="ignore", invalid="ignore"):
+            return float(need) / np.asarray(has, float)  # type: ignore[arg-type]
     need_a, has_a = np.broadcast_arrays(np.asarray(need, float), np.asarray(has, float))
     with np.errstate(divide="ignore", invalid="ignore"):
         return np.where(has_a == 0, np.inf, need_a / has_a)
@@ -234,7 +247,8 @@ def result(name: str, kind: Kind, sense: str, need: npt.ArrayLike, has: npt.Arra
     has_a = np.asarray(has, dtype=float)
     n = has_a.shape[0]
     need_a = np.broadcast_to(np.asarray(need, dtype=float), has_a.shape)
-    margin = (at_least if sense == ">=" else at_most)(need_a, has_a)
+    margin = (at_least if sense == ">=" else at_most)(need if np.ndim(need) == 0 else need_a,
+                                                        has_a)
     words = Coded.same(note, n) if isinstance(note, str) else note
     return CheckResult(name, kind, Coded.same(sense, n), need_a, has_a, margin, words)
 
@@ -243,13 +257,24 @@ def worse(a: CheckResult, b: CheckResult) -> CheckResult:
     """Per part the worse of two partial results of one check (e.g. the two rails).
 
     Worse is fail < unknown < pass, and the smaller margin between equals (a on a tie).
+    On margins (fail < 1 <= pass, unknown NaN), b is worse where mb < ma (both known),
+    or a is unknown and b fails, or b is unknown and a passes.
     """
-    ca, cb = a.code, b.code
+    ma, mb = a.margin, b.margin
     with np.errstate(invalid="ignore"):
-        pick_b = (cb < ca) | ((cb == ca) & (b.margin < a.margin))
-    return CheckResult(a.name, a.kind, merged(pick_b, a.sense, b.sense),
-                       np.where(pick_b, b.need, a.need), np.where(pick_b, b.has, a.has),
-                       np.where(pick_b, b.margin, a.margin), merged(pick_b, a.note, b.note))
+        pick_b = mb < ma
+        pick_b |= np.isnan(ma) & (mb < 1)
+        pick_b |= np.isnan(mb) & (ma >= 1)
+    need = a.need if _same(a.need, b.need) else np.where(pick_b, b.need, a.need)
+    return CheckResult(a.name, a.kind, merged(pick_b, a.sense, b.sense), need,
+                       np.where(pick_b, b.has, a.has), np.where(pick_b, mb, ma),
+                       merged(pick_b, a.note, b.note))
+
+
+def _same(x: Array, y: Array) -> bool:
+    """Both the same one value broadcast to every part (no per-part memory)."""
+    return (x.ndim == 1 and y.ndim == 1 and x.strides == (0,) and y.strides == (0,)
+            and len(x) == len(y) and (len(x) == 0 or bool(x[0] == y[0])))
 
 
 def unknown_unless_failing(r: CheckResult, missing: npt.NDArray[np.bool_]) -> CheckResult:
@@ -257,13 +282,17 @@ def unknown_unless_failing(r: CheckResult, missing: npt.NDArray[np.bool_]) -> Ch
 
     A value left out of a part is never taken as ideal: a check that a part passes only
     with an assumed value is unverified; a check it fails on what is known fails.
+    (Only the rows with a missing value are touched: a few percent of a catalogue.)
     """
-    if not missing.any():
-        return r
+    rows = np.flatnonzero(missing)
     with np.errstate(invalid="ignore"):
-        hide = missing & ~(r.margin < 1)
-    return CheckResult(r.name, r.kind, r.sense, r.need, np.where(hide, np.nan, r.has),
-                       np.where(hide, np.nan, r.margin), r.note)
+        hide = rows[~(r.margin[rows] < 1)]
+    if not len(hide):
+        return r
+    has, margin = np.array(r.has, dtype=float), np.array(r.margin, dtype=float)
+    has[hide] = np.nan
+    margin[hide] = np.nan
+    return CheckResult(r.name, r.kind, r.sense, r.need, has, margin, r.note)
 
 
 @dataclass(frozen=True)

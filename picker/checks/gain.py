@@ -68,12 +68,15 @@ def _errors(p: Parts, s: Spec, f: float) -> tuple[Array, Array]:
     their tolerance: max(| g·(1 + w+) - 1 |, | g·(1 - w-) - 1 |), g = |G|/G."""
     st, b = s.stage, s.budget
     out = []
-    for g in _gains(p, st, f):
-        g = np.multiply(g, 1 / st.gain)
-        high = np.abs(g * (1 + b.tolerance_high) - 1)
-        g *= 1 - b.tolerance_low
-        g -= 1
-        out.append(np.maximum(high, np.abs(g, out=g)))
+    for g in _gains(p, st, f):  # in place on new arrays (both may be one array at f = 0)
+        low = np.multiply(g, (1 - b.tolerance_low) / st.gain)
+        low -= 1
+        np.abs(low, out=low)
+        if b.tolerance_high or b.tolerance_low:
+            high = np.multiply(g, (1 + b.tolerance_high) / st.gain)
+            high -= 1
+            np.maximum(low, np.abs(high, out=high), out=low)
+        out.append(low)
     return out[0], out[1]
 
 

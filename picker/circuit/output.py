@@ -56,6 +56,15 @@ def reach(level: npt.ArrayLike, rsat: npt.ArrayLike, y: npt.ArrayLike,
         The level reached, V from the reference (same sign convention as ``level``).
     """
     v = np.asarray(level, dtype=float)
+    if np.ndim(y) == 0 and np.ndim(ju) == 0 and float(ju) == 0:  # type: ignore[arg-type]
+        # one admittance for all, no input current (the check): the current flows toward
+        # the rail wherever y > 0, so the formula below reduces to v/(1 + r·y)
+        if float(y) <= 0:  # type: ignore[arg-type]
+            return v
+        den = np.multiply(rsat, float(y))  # type: ignore[arg-type]
+        np.fmax(den, 0.0, out=den)  # NaN (light-load figures) -> 0
+        den += 1.0
+        return np.divide(v, den, out=den)  # type: ignore[no-any-return]
     r = np.nan_to_num(np.asarray(rsat, dtype=float), nan=0.0)
     y_a, ju_a = np.asarray(y, dtype=float), np.asarray(ju, dtype=float)
     loaded = (y_a * v - ju_a) * np.sign(v) > 0  # the current flows toward that rail
