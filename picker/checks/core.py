@@ -263,8 +263,11 @@ def worse(a: CheckResult, b: CheckResult) -> CheckResult:
     ma, mb = a.margin, b.margin
     with np.errstate(invalid="ignore"):
         pick_b = mb < ma
-        pick_b |= np.isnan(ma) & (mb < 1)
-        pick_b |= np.isnan(mb) & (ma >= 1)
+        unknown_a, unknown_b = np.isnan(ma), np.isnan(mb)
+        if unknown_a.any():
+            pick_b |= unknown_a & (mb < 1)
+        if unknown_b.any():
+            pick_b |= unknown_b & (ma >= 1)
     need = a.need if _same(a.need, b.need) else np.where(pick_b, b.need, a.need)
     return CheckResult(a.name, a.kind, merged(pick_b, a.sense, b.sense), need,
                        np.where(pick_b, b.has, a.has), np.where(pick_b, mb, ma),
@@ -282,17 +285,15 @@ def unknown_unless_failing(r: CheckResult, missing: npt.NDArray[np.bool_]) -> Ch
 
     A value left out of a part is never taken as ideal: a check that a part passes only
     with an assumed value is unverified; a check it fails on what is known fails.
-    (Only the rows with a missing value are touched: a few percent of a catalogue.)
+    The margin becomes NaN (unknown); ``has`` keeps what the known values give. Only the
+    rows with a missing value are touched (a few percent of a catalogue), and the margin
+    is changed in place: every check's margin is its own new array.
     """
     rows = np.flatnonzero(missing)
     with np.errstate(invalid="ignore"):
         hide = rows[~(r.margin[rows] < 1)]
-    if not len(hide):
-        return r
-    has, margin = np.array(r.has, dtype=float), np.array(r.margin, dtype=float)
-    has[hide] = np.nan
-    margin[hide] = np.nan
-    return CheckResult(r.name, r.kind, r.sense, r.need, has, margin, r.note)
+    r.margin[hide] = np.nan
+    return r
 
 
 @dataclass(frozen=True)
