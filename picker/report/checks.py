@@ -46,7 +46,8 @@ def stage_line(req: Requirement) -> str:
             else f"{_g(req.temp_min_c)}..{_g(req.temp_max_c)} °C")
     return (f"{req.topology}{gain}, {_g(req.vout)} Vpk out at {fmt(req.freq_hz, 'frequency')}; "
             f"rails {req.rail_pos:+g}/{req.rail_neg:+g} V, ref {_g(req.ref)} V; {load}{src}; "
-            f"gain error {fmt(req.gain_error, 'ratio')}; {temp}; margin {req.margin:g}")
+            f"gain error {fmt(req.gain_error, 'ratio')} with {fmt(req.tolerance, 'ratio')} resistors "
+            f"({req.tolerance_rule}); {temp}; margin {req.margin:g}")
 
 
 def cautions_block(cautions: list[str]) -> list[str]:
