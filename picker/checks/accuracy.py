@@ -68,15 +68,17 @@ def _sum_known(terms: list[tuple[float, Array]], n: int) -> Array:
     return total
 
 
-def _offset_terms(p: Parts, s: Spec) -> dict[str, tuple[float, Array]]:
+def _offset_coefs(s: Spec) -> dict[str, float]:
+    """How much of each part value reaches the output offset in this stage (field -> V/unit)."""
     st, req = s.stage, s.requirement
-    ng, rf, zp, dt = s.noise_gain, st.rf, st.zp, req.drift_span_c
-    return {
-        "vos_v": (ng, p["vos_v"]),
-        "drift_v_per_c": (ng * dt, p["drift_v_per_c"]),
-        "ib_a": (abs(rf - zp * ng), p["ib_a"]),
-        "ios_a": ((rf + zp * ng) / 2, p["ios_a"]),
-    }
+    ng, rf, zp = s.noise_gain, st.rf, st.zp
+    return {"vos_v": ng, "drift_v_per_c": ng * req.drift_span_c,
+            "ib_a": abs(rf - zp * ng), "ios_a": (rf + zp * ng) / 2}
+
+
+def _offset_terms(p: Parts, s: Spec) -> dict[str, tuple[float, Array]]:
+    """Each offset term as (coefficient, the parts' column)."""
+    return {f: (c, p[f]) for f, c in _offset_coefs(s).items()}
 
 
 def _ends(s: Spec) -> tuple[float, ...]:
@@ -88,9 +90,8 @@ def _ends(s: Spec) -> tuple[float, ...]:
 def _warm(s: Spec) -> bool:
     """Whether the bias currents are needed away from 25 °C (a range beyond 25 °C that
     moves an Ib or Ios term)."""
-    terms = _offset_terms(Parts.from_columns(np.array([], dtype=object), {}), s)
-    return (any(t != T_REF_C for t in _ends(s))
-            and (terms["ib_a"][0] != 0 or terms["ios_a"][0] != 0))
+    c = _offset_coefs(s)
+    return any(t != T_REF_C for t in _ends(s)) and (c["ib_a"] != 0 or c["ios_a"] != 0)
 
 
 def _doubling(p: Parts) -> tuple[Array, npt.NDArray[np.bool_]]:
@@ -156,8 +157,7 @@ def _offset(p: Parts, s: Spec) -> CheckResult:
 
 
 def _offset_needs(s: Spec) -> tuple[str, ...]:
-    dummy = Parts.from_columns(np.array([], dtype=object), {})
-    return tuple(k for k, (c, _) in _offset_terms(dummy, s).items() if c != 0)
+    return tuple(f for f, c in _offset_coefs(s).items() if c != 0)
 
 
 def _limit_explain(name: str, title: str, limit: float | None, m: float,
@@ -219,7 +219,7 @@ OFFSET = Check(
     applies=lambda s: s.requirement.offset_max_v is not None)
 
 
-def _noise_parts(p: Parts, s: Spec) -> dict[str, Any]:
+def _noise_parts(s: Spec) -> dict[str, Any]:
     st, req = s.stage, s.requirement
     ng, rf, zp, rg = s.noise_gain, st.rf, st.zp, st.rg
     four_kt = 4 * BOLTZMANN * req.temp_max_k
@@ -231,7 +231,7 @@ def _noise_parts(p: Parts, s: Spec) -> dict[str, Any]:
 def _noise(p: Parts, s: Spec) -> CheckResult:
     """Output RMS noise over the closed-loop noise bandwidth against noise_max / margin."""
     assert s.requirement.noise_max_v is not None
-    k = _noise_parts(p, s)
+    k = _noise_parts(s)
     en, cur = p["en_v_per_rthz"], p["in_a_per_rthz"]
     density2 = _sum_known([(k["ng"] ** 2, en * en), (k["i_gain2"], cur * cur)], len(p))
     density2 += k["r_density2"]
@@ -244,7 +244,7 @@ def _noise(p: Parts, s: Spec) -> CheckResult:
 
 
 def _noise_needs(s: Spec) -> tuple[str, ...]:
-    k = _noise_parts(Parts.from_columns(np.array([], dtype=object), {}), s)
+    k = _noise_parts(s)
     return ("en_v_per_rthz",) + (("in_a_per_rthz",) if k["i_gain2"] > 0 else ()) + ("gbw_hz",)
 
 
@@ -256,7 +256,7 @@ def _noise_explain(s: Spec) -> list[Explained]:
 
 def _noise_detail(s: Spec, p: Parts, i: int) -> str:
     one = p.take([i])
-    k = _noise_parts(one, s)
+    k = _noise_parts(s)
     f_cl = float(pole(one, s.stage)[0])
     en, cur = float(one["en_v_per_rthz"][0]), float(one["in_a_per_rthz"][0])
     return (f"en·NG {fmt(k['ng'] * en, 'vnoise')}, in {fmt(math.sqrt(k['i_gain2']) * cur, 'vnoise')}"
