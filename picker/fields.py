@@ -13,7 +13,7 @@ from typing import Literal
 
 from picker.quantities import Kind
 
-Group = Literal["identity", "supply", "dynamics", "input", "output", "noise", "stock"]
+Group = Literal["identity", "supply", "dynamics", "input", "output", "noise", "thermal", "stock"]
 
 
 @dataclass(frozen=True)
@@ -39,7 +39,14 @@ FIELDS: tuple[Field, ...] = (
     Field("gbw_hz", "frequency", "GBW [Hz]", "gain-bandwidth product", "dynamics", positive=True),
     Field("slew_v_per_s", "slew", "SR [V/µs]", "slew rate", "dynamics", positive=True),
     Field("aol_v_per_v", "gain", "Aol [dB]", "open-loop DC gain", "dynamics", positive=True),
+    Field("pm_unity_deg", "angle", "PM [°]", "phase margin as a follower without load (0-90°); the second open-loop pole follows from it and GBW (picker.circuit.loopgain)", "dynamics", positive=True),
+    Field("min_noise_gain", "gain", "NG min [dB]", "lowest noise gain the part is stable at (decompensated parts); empty: unity-gain stable when PM is given", "dynamics", positive=True),
     Field("rin_ohm", "resistance", "Rin [Ω]", "differential input resistance", "input", positive=True),
+    Field("cin_diff_f", "capacitance", "Cdiff [F]", "differential input capacitance (between the inputs)", "input"),
+    Field("cin_cm_f", "capacitance", "Ccm [F]", "common-mode input capacitance (each input to ground)", "input"),
+    Field("vdiff_max_v", "voltage", "Vdiff max [V]", "absolute maximum differential input voltage", "input", positive=True),
+    Field("cmrr_db", "decibel", "CMRR [dB]", "common-mode rejection ratio at DC, minimum", "input", positive=True),
+    Field("psrr_db", "decibel", "PSRR [dB]", "power-supply rejection ratio at DC, minimum (input-referred)", "supply", positive=True),
     Field("ib_a", "current", "Ib [A]", "input bias current (magnitude) at 25 °C", "input"),
     Field("ios_a", "current", "Ios [A]", "input offset current (magnitude) at 25 °C", "input"),
     Field("ib_double_c", "temperature", "Ib x2 [°C]", "warming over which Ib and Ios double (negative: they halve); empty: the input technology's default", "input", signed=True, positive=True),
@@ -55,6 +62,8 @@ FIELDS: tuple[Field, ...] = (
     Field("out_rsat_neg_ohm", "resistance", "Rsat- [Ω]", "output saturation resistance toward V-: headroom- grows by Rsat- x the sunk current", "output"),
     Field("en_v_per_rthz", "vnoise", "en [V/√Hz]", "input voltage noise density (white)", "noise"),
     Field("in_a_per_rthz", "inoise", "in [A/√Hz]", "input current noise density (white)", "noise"),
+    Field("theta_ja_c_per_w", "thermal", "θJA [°C/W]", "thermal resistance junction to ambient, in the package on a typical board", "thermal", positive=True),
+    Field("tj_max_c", "temperature", "Tj max [°C]", "maximum junction temperature", "thermal", signed=True),
     Field("price", "price", "price", "unit price, in the team's currency", "stock"),
     Field("qty", "count", "qty", "packages on hand", "stock"),
     Field("reorder_level", "count", "reorder at", "reorder when packages on hand fall to this or fewer", "stock"),

@@ -42,6 +42,10 @@ Kind = Literal[
     "time",
     "amplitude",
     "angle",
+    "capacitance",
+    "decibel",
+    "thermal",
+    "power",
 ]
 
 KINDS: tuple[Kind, ...] = get_args(Kind)
@@ -90,6 +94,10 @@ _UNITS: dict[str, list[_Unit]] = {
     "count": [],
     "time": [_Unit("s", 1)],
     "angle": [_Unit("°", 1, prefix_ok=False), _Unit("deg", 1, prefix_ok=False)],
+    "capacitance": [_Unit("F", 1)],
+    "decibel": [_Unit("dB", 1, prefix_ok=False)],
+    "thermal": [_Unit(f"{t}/W", 1, prefix_ok=False) for t in ("°C", "C", "K", "degC")],
+    "power": [_Unit("W", 1)],
     "amplitude": [
         _Unit("Vpk", 1),
         _Unit("Vp", 1),
@@ -116,6 +124,10 @@ _WHAT: dict[str, str] = {
     "count": "a whole number (e.g. 25)",
     "time": "a time (e.g. 10ms)",
     "angle": "an angle in degrees (e.g. 5deg, 2.5°)",
+    "capacitance": "a capacitance (e.g. 100pF, 4.7nF)",
+    "decibel": "a level in dB (e.g. 90dB; bare = dB)",
+    "thermal": "a thermal resistance (e.g. 150°C/W, 150 K/W)",
+    "power": "a power (e.g. 250mW)",
     "amplitude": "an amplitude with its form (e.g. 3Vpk, 6Vpp, 2.12Vrms; bare = peak)",
 }
 
@@ -125,7 +137,7 @@ _IEC_CODE = re.compile(r"^(\d*)([RrkKMGm])(\d*)$")
 _IEC_SCALE = {"R": 1.0, "r": 1.0, "k": 1e3, "K": 1e3, "M": 1e6, "G": 1e9, "m": 1e-3}
 
 # Kinds whose values may be negative (headroom into a rail, a rail, a temperature).
-_SIGNED: frozenset[str] = frozenset({"voltage", "temperature"})
+_SIGNED: frozenset[str] = frozenset({"voltage", "temperature", "decibel"})
 
 
 def _regex(kind: str, with_prefix: bool) -> re.Pattern[str]:
@@ -201,7 +213,7 @@ def _match(text: str, kind: str) -> float | None:
             return None
     if unit is not None and not unit.prefix_ok and prefix:
         return None
-    if prefix and kind in ("price", "count", "ratio", "temperature"):
+    if prefix and kind in ("price", "count", "ratio", "temperature", "decibel", "thermal"):
         return None
     value = _prefixed(m.group("num"), prefix)
     if unit is None:
@@ -382,6 +394,10 @@ def fmt(value: float | int | None, kind: Kind, prec: int = 3) -> str:
         return f"{_sig(v, prec)} °C"
     if kind == "angle":
         return f"{_sig(v, prec)}°"
+    if kind == "decibel":
+        return f"{_sig(v, prec)} dB"
+    if kind == "thermal":
+        return f"{_sig(v, prec)} °C/W"
     if kind == "price":
         return f"{v:.2f}"
     if kind == "count":
@@ -396,6 +412,8 @@ def fmt(value: float | int | None, kind: Kind, prec: int = 3) -> str:
         "drift": "V/°C",
         "time": "s",
         "amplitude": "Vpk",
+        "capacitance": "F",
+        "power": "W",
     }[kind]
     from quantiphy import Quantity
 

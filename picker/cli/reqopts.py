@@ -54,6 +54,16 @@ _OPTIONS: tuple[tuple[str, str, Any, str], ...] = (
      "design margin: needs x margin, allowed errors / margin (default 1.25; 1 = bare minimums)"),
     ("rf", "--rf", QuantityParam("resistance", positive=True),
      "pin the feedback resistor of the E-series network (default: designed, see picker net)"),
+    ("cload", "--cload", QuantityParam("capacitance"),
+     "capacitance at the output, e.g. 1nF (cable, ADC input; default 0)"),
+    ("vcm", "--vcm", str,
+     "difference stage: input common-mode level or range, e.g. 2.5V or -5..5V (default: ref)"),
+    ("cmrr", "--cmrr", QuantityParam("decibel"),
+     "difference stage: least common-mode rejection of the stage, e.g. 60dB"),
+    ("phase_margin", "--phase-margin", QuantityParam("angle", positive=True),
+     "least phase margin of the loop (default 45°)"),
+    ("ripple", "--ripple", str,
+     "supply ripple on each rail as amplitude@frequency, e.g. 50mVpp@100Hz (default: none)"),
 )
 
 KEYS: tuple[str, ...] = tuple(name for name, *_ in _OPTIONS) + ("mains", "assume",

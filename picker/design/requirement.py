@@ -69,6 +69,11 @@ KEYS: dict[str, str] = {
     "light-load-swing": "light_load_swing",
     "network": "network",
     "assume": "assume",
+    "cload": "cload_f",
+    "vcm": "vcm",
+    "cmrr": "cmrr_min_db",
+    "phase-margin": "phase_margin_deg",
+    "ripple": "ripple",
 }
 
 Label = Callable[[str], str]
@@ -91,6 +96,11 @@ RANGES: dict[str, tuple[float, float, str]] = {
     "temp": (-273.15, 500.0, "°C (-273.15 °C to 500 °C)"),
     "qty": (1, 1e9, "channels (1 to 1,000,000,000)"),
     "margin": (1.0, 100.0, "(1 to 100)"),
+    "cload": (0.0, 1e-3, "F (0 to 1 mF)"),
+    "cmrr": (0.0, 200.0, "dB (0 to 200 dB)"),
+    "phase-margin": (1.0, 89.0, "° (1° to 89°)"),
+    "ripple": (1e-9, 1e3, "V (1 nV to 1 kV)"),
+    "ripple-freq": (1e-3, 1e9, "Hz (1 mHz to 1 GHz)"),
 }
 
 
@@ -146,6 +156,13 @@ class Requirement:
     assume: Mapping[str, float] = field(default_factory=dict, hash=False)
     mains: bool = False
     light_load_swing: bool = False  # a part without Rsat swings as at light load (assumed)
+    cload_f: float = 0.0  # capacitance at the output to the reference, F
+    # input common-mode level or range of a difference stage (low, high), V; None: ref
+    vcm: tuple[float, float] | None = None
+    cmrr_min_db: float | None = None  # required common-mode rejection, dB
+    phase_margin_deg: float = 45.0  # least phase margin of the loop, degrees
+    # rail ripple (peak amplitude V, frequency Hz) for the supply-rejection budget
+    ripple: tuple[float, float] | None = None
 
     def __post_init__(self) -> None:
         self.validate(option_label)
@@ -274,6 +291,24 @@ class Requirement:
             raise BadRequirement(f"{label('qty')}: at least one channel is needed")
         if self.temp_min_c > self.temp_max_c:
             raise BadRequirement(f"{label('temp')}: write the range low..high, e.g. -40..85C")
+        if t != "difference":
+            for name, given in (("vcm", self.vcm), ("cmrr", self.cmrr_min_db)):
+                if given is not None:
+                    raise BadRequirement(
+                        f"{label(name)}: applies to the difference stage only (the {t} stage "
+                        "has no common-mode input to reject); omit it")
+        if self.vcm is not None:
+            lo, hi = self.vcm
+            if lo > hi:
+                raise BadRequirement(f"{label('vcm')}: write the range low..high, e.g. -5..5V")
+            if lo < self.rail_neg - 1e3 or hi > self.rail_pos + 1e3:
+                raise BadRequirement(f"{label('vcm')}: {lo:g}..{hi:g} V is not a common-mode "
+                                     "level a stage on these rails sees; check the units")
+        if not (self.cload_f >= 0 and math.isfinite(self.cload_f)):
+            raise BadRequirement(f"{label('cload')}: the load capacitance must be >= 0 F")
+        if not (0 < self.phase_margin_deg < 90):
+            raise BadRequirement(f"{label('phase-margin')}: {self.phase_margin_deg!r}° must lie "
+                                 "between 0° and 90°, e.g. --phase-margin 45deg")
         if self.network is not None:
             allowed = kind(t).network_names
             for name, value in self.network.items():
@@ -335,6 +370,38 @@ def _temps(text: Any, name: str) -> tuple[float, float]:
     return v, v
 
 
+def _vcm(value: Any, name: str) -> tuple[float, float]:
+    """A common-mode level (``2.5V``) or range (``-5..5V``, ``[-5, 5]``), V."""
+    if isinstance(value, list | tuple):
+        if len(value) != 2:
+            raise BadValue(name, Brief(value), "needs two levels, low and high, e.g. [-5, 5]")
+        lo, hi = (parse(v, "voltage", name) for v in value)
+    elif isinstance(value, str) and ".." in value:
+        a, b = value.split("..", 1)
+        unit = "".join(ch for ch in b if ch.isalpha())
+        a = a if any(ch.isalpha() for ch in a) else a + unit
+        lo, hi = parse(a, "voltage", name), parse(b, "voltage", name)
+    else:
+        lo = hi = parse(value, "voltage", name)
+    return lo, hi
+
+
+def _ripple(value: Any, name: str) -> tuple[float, float]:
+    """Rail ripple ``50mVpp@100Hz`` (or a TOML table {amplitude, freq}): (peak V, Hz)."""
+    if isinstance(value, Mapping):
+        amp, freq = value.get("amplitude"), value.get("freq")
+        if amp is None or freq is None:
+            raise BadValue(name, Brief(value), "needs amplitude and freq, e.g. "
+                           "{amplitude = '50mVpp', freq = '100Hz'}")
+    elif isinstance(value, str) and "@" in value:
+        amp, freq = (t.strip() for t in value.split("@", 1))
+    else:
+        raise BadValue(name, Brief(value), "is not amplitude@frequency, e.g. 50mVpp@100Hz")
+    v = _ranged("ripple", parse_amplitude(amp, name), name, value)
+    f = _ranged("ripple-freq", parse(freq, "frequency", name, allow_zero=False), name, value)
+    return v, f
+
+
 def _bool(value: Any, name: str) -> bool:
     if isinstance(value, bool):
         return value
@@ -375,7 +442,9 @@ def _network(value: Any, name: str) -> dict[str, float]:
 ASSUMABLE = ("gbw_hz", "slew_v_per_s", "aol_v_per_v", "rin_ohm", "rout_ohm", "iout_a",
              "ib_a", "ios_a", "vos_v", "drift_v_per_c", "en_v_per_rthz", "in_a_per_rthz",
              "out_head_pos_v", "out_head_neg_v", "cm_head_pos_v", "cm_head_neg_v",
-             "supply_min_v", "supply_max_v", "channels")
+             "supply_min_v", "supply_max_v", "channels", "out_rsat_pos_ohm", "out_rsat_neg_ohm",
+             "pm_unity_deg", "min_noise_gain", "cin_diff_f", "cin_cm_f", "vdiff_max_v",
+             "cmrr_db", "psrr_db", "theta_ja_c_per_w", "tj_max_c")
 
 
 def _assume(value: Any, name: str) -> dict[str, float]:
@@ -507,6 +576,19 @@ def _build(values: Mapping[str, tuple[Any, str]]) -> Requirement:
             kw["network"] = _network(raw, name)
         elif key == "assume":
             kw["assume"] = _assume(raw, name)
+        elif key == "cload":
+            kw["cload_f"] = 0.0 if _optional(raw) else _ranged(
+                key, parse(raw, "capacitance", name), name, raw)
+        elif key == "vcm":
+            kw["vcm"] = None if _optional(raw) else _vcm(raw, name)
+        elif key == "cmrr":
+            kw["cmrr_min_db"] = None if _optional(raw) else _ranged(
+                key, parse(raw, "decibel", name, allow_negative=False), name, raw)
+        elif key == "phase-margin":
+            kw["phase_margin_deg"] = _ranged(key, parse(raw, "angle", name, allow_zero=False),
+                                             name, raw)
+        elif key == "ripple":
+            kw["ripple"] = None if _optional(raw) else _ripple(raw, name)
     if "rail_pos" not in kw:
         raise BadRequirement(f"{lab('rails')}: missing; give the supply rails, e.g. --rails ±12 "
                              "or --rails +5/0")

@@ -17,6 +17,7 @@ import pytest
 from click.testing import CliRunner, Result
 
 from picker.cli import cli
+from tests.demo import DEMO_PARTS
 
 ROOT = Path(__file__).resolve().parents[2]
 DEMO = ROOT / "picker" / "data" / "demo_stockroom.csv"
@@ -123,10 +124,10 @@ def test_backup_and_restore_through_the_cli(demo_db: str, tmp_path: Path) -> Non
     run("stock", "take", label, "2", "--for", "p", "--db", demo_db)
     for name, extra in (("b.db", []), ("b.jsonl", ["--portable"])):
         out = run("db", "backup", str(tmp_path / name), *extra, "--db", demo_db).stdout
-        assert "1 movements, 30 parts" in out
+        assert f"1 movements, {DEMO_PARTS} parts" in out
         new = str(tmp_path / f"new-{name}.db")
         out = run("db", "restore", str(tmp_path / name), "--db", new).stdout
-        assert out.startswith("restored 1 movements, 30 parts")
+        assert out.startswith(f"restored 1 movements, {DEMO_PARTS} parts")
         for cmd in (["parts", "export"], ["stock", "log", "--json"]):
             assert run(*cmd, "--db", new).stdout == run(*cmd, "--db", demo_db).stdout
     again = run("db", "restore", str(tmp_path / "b.db"), "--db", demo_db, ok=False)
@@ -144,10 +145,10 @@ def test_an_old_stockroom_is_refused_until_upgraded(tmp_path: Path) -> None:
     first_schema_with_rows(f"sqlite:///{db}").dispose()
     res = run("stock", "log", "--db", db, ok=False)
     assert res.exit_code == 2
-    assert "has schema 0001, this picker needs 0004" in res.stderr
+    assert "has schema 0001, this picker needs 0005" in res.stderr
     assert "`picker db backup FILE`, then run `picker db upgrade`" in res.stderr
     run("db", "backup", str(tmp_path / "before-upgrade.db"), "--db", db)  # as advised
-    assert "schema 0001 -> 0004" in run("db", "upgrade", "--db", db).stdout
+    assert "schema 0001 -> 0005" in run("db", "upgrade", "--db", db).stdout
     assert "took 1 of bip-gp-a" in run("stock", "take", "bip-gp-a", "1", "--for", "p",
                                        "--db", db).stdout
 

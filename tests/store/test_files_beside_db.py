@@ -22,6 +22,7 @@ from hypothesis import strategies as st
 from picker.cli import cli
 from picker.store import Store
 from tests.cli.clirun import fails, run
+from tests.demo import DEMO_PARTS
 
 
 def checksum(path: Path) -> str:
@@ -122,7 +123,7 @@ def test_a_stockroom_file_name_means_itself(tmp_path: Path, name: str) -> None:
     run("init", "--demo", "--db", str(path))
     assert path.exists() and path.stat().st_size > 0
     assert sorted(p.name for p in tmp_path.iterdir() if p.suffix == ".db") == [name]
-    assert "30 part(s)" in run("parts", "list", "--db", str(path)).stderr
+    assert f"{DEMO_PARTS} part(s)" in run("parts", "list", "--db", str(path)).stderr
 
 
 # -- property: generated names beside the database ------------------------------------------

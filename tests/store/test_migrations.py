@@ -125,7 +125,7 @@ def test_an_older_or_newer_database_is_refused_with_the_fix(db_url: str) -> None
     from sqlalchemy import text
 
     first_schema_with_rows(db_url).dispose()
-    with pytest.raises(StoreError, match=r"schema 0001, this picker needs 0004.*picker db upgrade"):
+    with pytest.raises(StoreError, match=r"schema 0001, this picker needs 0005.*picker db upgrade"):
         Store.open(db_url)
     store = Store.open(db_url, check=False)
     store.upgrade()
@@ -178,7 +178,7 @@ def test_upgrade_from_0002_keeps_every_row_and_starts_with_nothing_reserved(db_u
     parts_before = all_rows(engine, "parts")
     moves_before = all_rows(engine, "movements")
     migrate.upgrade(engine, "head")
-    assert migrate.current(engine) == migrate.HEAD == "0004"
+    assert migrate.current(engine) == migrate.HEAD == "0005"
     parts_after = all_rows(engine, "parts")
     moves_after = all_rows(engine, "movements")
     assert len(parts_after) == len(parts_before) and len(moves_after) == len(moves_before) == 2

@@ -1,0 +1,41 @@
+"""The requirement options of the stability, rejection and ripple checks: read in SI
+units, refused with one line naming the option where they cannot apply."""
+
+from __future__ import annotations
+
+import pytest
+
+from picker.design.requirement import requirement_from
+from picker.errors import PickerError
+
+BASE = {"topology": "difference", "gain": "10", "vin": "0.1V", "freq": "1kHz", "rails": "±12"}
+
+
+def test_new_options_read_in_si_units() -> None:
+    req = requirement_from({**BASE, "cload": "1nF", "vcm": "-5..5V", "cmrr": "60dB",
+                            "phase_margin": "50deg", "ripple": "50mVpp@100Hz"})
+    assert req.cload_f == pytest.approx(1e-9)
+    assert req.vcm == (-5.0, 5.0)
+    assert req.cmrr_min_db == 60.0
+    assert req.phase_margin_deg == 50.0
+    assert req.ripple == pytest.approx((0.025, 100.0))  # 50 mV peak to peak is 25 mV peak
+
+
+def test_defaults_are_stated_ones() -> None:
+    req = requirement_from(BASE)
+    assert (req.cload_f, req.vcm, req.cmrr_min_db, req.phase_margin_deg, req.ripple) == (
+        0.0, None, None, 45.0, None)
+
+
+@pytest.mark.parametrize(("extra", "match"), [
+    ({"topology": "inverting", "vcm": "1V"}, "--vcm: applies to the difference stage only"),
+    ({"topology": "follower", "gain": None, "cmrr": "60dB"}, "--cmrr: applies to the difference"),
+    ({"vcm": "5..-5V"}, "--vcm: write the range low..high"),
+    ({"phase_margin": "95deg"}, "--phase-margin: '95deg' is outside"),
+    ({"ripple": "50mV"}, "--ripple: '50mV' is not amplitude@frequency"),
+    ({"ripple": "50mV@0Hz"}, "--ripple"),
+    ({"cload": "1V"}, "--cload: '1V' is a voltage"),
+])
+def test_bad_values_name_the_option(extra: dict[str, str | None], match: str) -> None:
+    with pytest.raises(PickerError, match=match):
+        requirement_from({**BASE, **extra})
