@@ -82,7 +82,16 @@ def format_option(f: F) -> F:
 
 
 def open_store(db: str | None):  # type: ignore[no-untyped-def]
-    """Open the stockroom named by --db/PICKER_DB (checks its schema version)."""
+    """Open the stockroom named by --db/PICKER_DB (checks its schema version); its
+    connections are closed when the command ends (not left to the garbage collector)."""
     from picker.store import Store
 
-    return Store.open(db)
+    return closed_at_exit(Store.open(db))
+
+
+def closed_at_exit(store: Any) -> Any:
+    """``store``, disposed of when the running click command ends (if there is one)."""
+    ctx = click.get_current_context(silent=True)
+    if ctx is not None:
+        ctx.call_on_close(store.dispose)
+    return store

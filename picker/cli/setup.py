@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import click
 
-from picker.cli.params import db_option
+from picker.cli.params import closed_at_exit, db_option
 from picker.data import demo_stockroom
 
 
@@ -15,7 +15,7 @@ def init(demo: bool, db: str | None) -> None:
     """Create the stockroom (or bring an existing one to the current schema)."""
     from picker.store import Store
 
-    store = Store.create(db)
+    store = closed_at_exit(Store.create(db))
     if demo:
         from picker.store.csvio import parse_csv
 
