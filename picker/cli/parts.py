@@ -87,11 +87,24 @@ def list_(wheres: tuple[str, ...], in_stock: bool, columns: str | None, fmt: str
 @click.option("--json", "as_json", is_flag=True, help="JSON in SI units")
 @db_option
 def show(label: str, as_json: bool, db: str | None) -> None:
-    """Show every field of one part in engineering units."""
+    """Show every field of one part in engineering units, with what is reserved and
+    available beside the packages on hand."""
     from picker.report.tables import card, to_json
 
-    row = open_store(db).get(label)
+    store = open_store(db)
+    row = with_stock(store.get(label), store.reserved(label))
     click.echo(to_json(row) if as_json else card(row))
+
+
+def with_stock(row: dict[str, Any], reserved: int) -> dict[str, Any]:
+    """``row`` with ``reserved`` and the derived ``available`` right after ``qty``."""
+    out: dict[str, Any] = {}
+    for k, v in row.items():
+        out[k] = v
+        if k == "qty":
+            out["reserved"] = reserved
+            out["available"] = None if v is None else int(v) - reserved
+    return out
 
 
 @parts.command()

@@ -25,7 +25,9 @@ def cell(name: str, value: Any) -> str:
     """One value as people read it: engineering notation, '-' for unknown."""
     if name == "updated_at":
         return value.strftime("%Y-%m-%d %H:%M") if isinstance(value, datetime) else str(value or "")
-    f = BY_NAME[name]
+    f = BY_NAME.get(name)
+    if f is None:  # a stock count beside the fields (reserved)
+        return "-" if value is None else str(value)
     if f.kind == "text":
         return "" if value is None else str(value)
     if value is None or (isinstance(value, float) and math.isnan(value)):
@@ -40,13 +42,17 @@ def table(rows: Iterable[Mapping[str, Any]], columns: Sequence[str]) -> str:
     return tabulate(body, headers=[header(c) for c in columns], disable_numparse=True)
 
 
+_EXTRA = {"updated_at": "last change",
+          "reserved": "packages held for projects (picker stock reserve)"}
+
+
 def card(row: Mapping[str, Any]) -> str:
     """Every field of one part, one per line, with its meaning."""
     from tabulate import tabulate
 
     body = []
     for name, value in row.items():
-        meaning = BY_NAME[name].help if name in BY_NAME else "last change"
+        meaning = BY_NAME[name].help if name in BY_NAME else _EXTRA.get(name, name)
         body.append([name, cell(name, value), meaning])
     return tabulate(body, headers=["field", "value", "meaning"], disable_numparse=True)
 

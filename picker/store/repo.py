@@ -164,6 +164,18 @@ class Store:
             raise NotFound(f"part {label!r} is not in the stockroom; `picker parts list` shows them")
         return {k: row[k] for k in (*FIELD_NAMES, "updated_at")}
 
+    def reserved(self, label: str) -> int:
+        """Packages of ``label`` held for projects (``picker stock reserve``)."""
+        from sqlalchemy import select
+
+        from picker.store.models import parts
+
+        with self.engine.connect() as conn:
+            n = conn.execute(select(parts.c.reserved).where(parts.c.label == label)).scalar()
+        if n is None:
+            raise NotFound(f"part {label!r} is not in the stockroom; `picker parts list` shows them")
+        return int(n)
+
     def labels(self) -> list[str]:
         from sqlalchemy import select
 

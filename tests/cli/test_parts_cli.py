@@ -5,6 +5,7 @@ from __future__ import annotations
 import csv
 import io
 import json
+import re
 import shutil
 import subprocess
 import sys
@@ -177,3 +178,15 @@ def test_every_command_has_help_and_is_in_readme() -> None:
         result = runner.invoke(cli, [*words, "--help"], catch_exceptions=False)
         assert result.exit_code == 0 and "Usage:" in result.output
         assert f"picker {' '.join(words)}" in readme, f"README lacks `picker {' '.join(words)}`"
+
+
+def test_show_counts_reserved_and_available(demo_db: str) -> None:
+    """available = on hand - reserved (the stockroom's own rule, README "Stock")."""
+    before = json.loads(run("parts", "show", "bip-gp-a", "--json", "--db", demo_db).stdout)
+    run("stock", "reserve", "bip-gp-a", "7", "--for", "amp-1", "--db", demo_db)
+    after = json.loads(run("parts", "show", "bip-gp-a", "--json", "--db", demo_db).stdout)
+    assert (after["qty"], after["reserved"], after["available"]) == (
+        before["qty"], 7, before["qty"] - 7)
+    card = run("parts", "show", "bip-gp-a", "--db", demo_db).stdout
+    assert re.search(r"^reserved\s+7\s", card, re.M)
+    assert re.search(rf"^available\s+{before['qty'] - 7}\s", card, re.M)
