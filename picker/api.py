@@ -259,6 +259,51 @@ def response(req: Requirement, store: Any, part: str, freq_hz: float | None = No
     return out
 
 
-__all__ = ["PartReport", "built", "candidates", "design_network", "part_frame", "parts_for",
+def envelope(req: Requirement, store: Any, labels: list[str] | tuple[str, ...] = (), *,
+             top: int = 4, low_hz: float | None = None, high_hz: float | None = None) -> Any:
+    """The operating envelope of some parts in the stage as built (``picker envelope``).
+
+    Parameters
+    ----------
+    req : Requirement
+    store : Store
+    labels : sequence of str
+        The parts to draw; empty: the first ``top`` candidates in pick's order
+        (accepted, then unverified, then the closest rejected).
+    top : int
+        How many candidates when no labels are given.
+    low_hz, high_hz : float, optional
+        The frequency span (default three decades below the top frequency to two above).
+
+    Returns
+    -------
+    picker.design.envelope.Envelope
+        ``to_json()`` is ``picker envelope --json``.
+    """
+    from picker.design.envelope import envelope as draw
+    from picker.design.envelope import grid
+    from picker.design.rank import select
+    from picker.errors import NotFound
+
+    b = built(req)
+    every = parts_for(minimum_specs(b), store)
+    if labels:
+        for label in labels:
+            store.get(label)  # NotFound with the fix
+        where = {str(x): i for i, x in enumerate(every.labels)}
+        rows = [where[x] for x in labels]
+    else:
+        sel = select(every, b, misses=0)
+        rows = [e.row for e in [*sel.accepted[:top], *sel.unverified[:top],
+                                *sel.rejected[:top]]][:top]
+        if not rows:
+            raise NotFound("the stockroom has no parts; add some with `picker parts add` or "
+                           "`picker init --demo`")
+    parts = every.take(rows)
+    return draw(b, parts, grid(b, low_hz, high_hz))
+
+
+__all__ = ["PartReport", "built", "candidates", "design_network", "envelope", "part_frame",
+           "parts_for",
            "pick",
            "requirement", "response", "spec", "waveform", "why"]

@@ -18,7 +18,7 @@ from __future__ import annotations
 
 from collections.abc import Callable
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING, Any, Literal
 
 import numpy as np
 
@@ -34,6 +34,9 @@ from picker.quantities import Kind
 
 if TYPE_CHECKING:
     from picker.design.spec import Explained, Spec
+
+
+Amplitude = Literal["proportional", "independent", "other", "none"]
 
 
 def _always(spec: Spec) -> bool:
@@ -67,6 +70,10 @@ class Check:
         Whether the check applies to the stage.
     ranked : bool
         Whether its margin measures headroom (enters the ranking margin).
+    amplitude : str or callable (Spec) -> str
+        How the verdict depends on the signal amplitude, for the operating envelope
+        (picker.design.envelope): ``proportional`` (need ∝ amplitude, the part's side
+        not), ``independent``, ``other``, or ``none`` (not about the signal: stock).
     """
 
     name: str
@@ -79,6 +86,11 @@ class Check:
     needs: Callable[[Spec], tuple[str, ...]] | None = None
     applies: Callable[[Spec], bool] = _always
     ranked: bool = True
+    amplitude: Amplitude | Callable[[Spec], Amplitude] = "other"
+
+    def amplitude_rule(self, spec: Spec) -> Amplitude:
+        """``amplitude`` for this stage (see the attribute)."""
+        return self.amplitude if isinstance(self.amplitude, str) else self.amplitude(spec)
 
     def needed(self, spec: Spec) -> tuple[str, ...]:
         return self.reads if self.needs is None else self.needs(spec)
@@ -159,5 +171,5 @@ def run_checks(parts: Parts | Any, spec: Spec) -> CheckTable:
     return table
 
 
-__all__ = ["RANKING_READS", "STATUS_WORDS", "Check", "CheckResult", "CheckTable", "Parts",
+__all__ = ["RANKING_READS", "Amplitude", "STATUS_WORDS", "Check", "CheckResult", "CheckTable", "Parts",
            "Status", "applicable", "by_name", "needed_columns", "registered", "run_checks"]

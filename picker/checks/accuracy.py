@@ -216,7 +216,7 @@ OFFSET = Check(
     formula="max over T = both ends of --temp of NG·(|Vos| + |drift|·|T - 25 °C|) + "
             "(|Ib|·|rf - zp·NG| + Ios/2·(rf + zp·NG))·2^((T - 25 °C)/T2) <= offset max/m",
     explain=_offset_explain, detail=_offset_detail,
-    applies=lambda s: s.requirement.offset_max_v is not None)
+    applies=lambda s: s.requirement.offset_max_v is not None, amplitude="independent")
 
 
 def _noise_parts(s: Spec) -> dict[str, Any]:
@@ -271,7 +271,7 @@ NOISE = Check(
     formula="√((en·NG)² + in²·(rf² + (zp·NG)²) + 4kT·(rf + rf²/rg + zp·NG²)) × √(π/2·f_cl) "
             "<= noise max/m, f_cl the closed-loop pole",
     explain=_noise_explain, detail=_noise_detail,
-    applies=lambda s: s.requirement.noise_max_v is not None)
+    applies=lambda s: s.requirement.noise_max_v is not None, amplitude="independent")
 
 
 __all__ = ["BOLTZMANN", "NOISE", "OFFSET"]

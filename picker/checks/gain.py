@@ -179,7 +179,7 @@ GAIN_ACCURACY = Check(
     formula="| |G|·(1 ± w)/G - 1 | <= gain error/m at DC and at f; G exact from the nodal "
             "solution (A(s) = A0/(1 + s·A0/(2π·GBW)), Rin, Ro, source, load, network), "
             "w the resistor tolerance's gain spread",
-    explain=_gain_explain, detail=_gain_detail)
+    explain=_gain_explain, detail=_gain_detail, amplitude="independent")
 
 
 def _phase(p: Parts, s: Spec) -> CheckResult:
@@ -214,7 +214,7 @@ PHASE = Check(
     run=_phase, needs=_gain_needs,
     formula="|arg G(j2πf) - arg G_ideal| <= phase error, G exact from the nodal solution",
     explain=_phase_explain, detail=_phase_detail,
-    applies=lambda s: s.requirement.phase_error_deg is not None)
+    applies=lambda s: s.requirement.phase_error_deg is not None, amplitude="independent")
 
 
 def pole(p: Parts, st: Stage) -> Array:

@@ -124,7 +124,7 @@ SWING = Check(
     run=_swing, needs=_swing_needs,
     formula="each side (V± ∓ head± - ref)/(1 + Rsat±/R_eff) >= need = Vp,out (the output "
             "must reach ref ± Vp,out while driving the load and network, headroom + Rsat·I)",
-    explain=_swing_explain, detail=_swing_detail)
+    explain=_swing_explain, detail=_swing_detail, amplitude="proportional")
 
 
 # -- common mode -------------------------------------------------------------------------
@@ -162,7 +162,7 @@ COMMON_MODE = Check(
     run=_common_mode,
     formula="each side (V+ - cm head+) - ref and ref - (V- + cm head-) >= need = |kp|·Vp,in "
             "(the inputs follow the non-inverting input)",
-    explain=_cm_explain, detail=_cm_detail)
+    explain=_cm_explain, detail=_cm_detail, amplitude="proportional")
 
 
 # -- slew --------------------------------------------------------------------------------
@@ -186,7 +186,7 @@ def _slew_detail(s: Spec, p: Parts, i: int) -> str:
 
 SLEW = Check(name="slew", kind="slew", reads=("slew_v_per_s",), run=_slew,
              formula="SR >= 2π·f·Vp,out·m (a sine's steepest slope, with the margin)",
-             explain=_slew_explain, detail=_slew_detail)
+             explain=_slew_explain, detail=_slew_detail, amplitude="proportional")
 
 
 # -- output current ------------------------------------------------------------------------
@@ -221,7 +221,7 @@ OUTPUT_CURRENT = Check(
     needs=lambda s: ("iout_a",) if s.minimum.iout_a > 0 else (),
     formula="Iout >= m·Vp,out/R_eff, 1/R_eff = 1/RL + (1 - vn/vo)/rf "
             "(load plus feedback network at the peak)",
-    explain=_current_explain, detail=_current_detail)
+    explain=_current_explain, detail=_current_detail, amplitude="proportional")
 
 
 # -- supply ------------------------------------------------------------------------------
@@ -248,7 +248,8 @@ def _supply_detail(s: Spec, p: Parts, i: int) -> str:
 
 SUPPLY = Check(name="supply", kind="voltage", reads=("supply_min_v", "supply_max_v"),
                run=_supply, formula="Vs,min <= V+ - V- <= Vs,max", explain=_supply_explain,
-               detail=_supply_detail, ranked=False)  # a rating, not headroom
+               detail=_supply_detail, ranked=False,  # a rating, not headroom
+               amplitude="independent")
 
 
 # -- stock -------------------------------------------------------------------------------
@@ -285,7 +286,8 @@ def _count(x: float) -> str:
 STOCK = Check(name="stock", kind="count", reads=("available", "channels"), run=_stock,
               needs=lambda s: ("available",),
               formula="packages available (on hand - reserved) × channels >= channels needed",
-              explain=_stock_explain, detail=_stock_detail, ranked=False)  # logistics
+              explain=_stock_explain, detail=_stock_detail, ranked=False,  # logistics
+              amplitude="none")
 
 
 __all__ = ["COMMON_MODE", "OUTPUT_CURRENT", "SLEW", "STOCK", "SUPPLY", "SWING"]
