@@ -303,7 +303,63 @@ def envelope(req: Requirement, store: Any, labels: list[str] | tuple[str, ...] =
     return draw(b, parts, grid(b, low_hz, high_hz))
 
 
+def sweep(req: Requirement, store: Any, vary: str, low: float, high: float, *,
+          points: int = 50, log: bool | None = None) -> Any:
+    """Vary one value of the stage as built and check every part at each point
+    (``picker sweep``).
+
+    Parameters
+    ----------
+    req : Requirement
+    store : Store or Parts
+        The parts (a Store is read for the columns the checks need).
+    vary : str
+        ``freq``, ``vout``, ``gain``, ``load``, ``source``, ``temp`` or ``cload``.
+    low, high : float
+        The range, SI units (amplitudes as peak volts, temperatures in °C).
+    points : int
+        How many values, 2 .. 1000.
+    log : bool, optional
+        Log spacing (default: log except for temperature).
+
+    Returns
+    -------
+    picker.design.sweep.Sweep
+        ``to_json()`` is ``picker sweep --json``.
+    """
+    from picker.design.sweep import VARIABLES, values
+    from picker.design.sweep import sweep as run
+    from picker.errors import BadValue, PickerError
+
+    if vary not in VARIABLES:
+        raise BadValue("--vary", vary, "is not a value a sweep can vary; use one of "
+                       + ", ".join(VARIABLES))
+    variable = VARIABLES[vary]
+    spaced = variable.log if log is None else log
+    if not 2 <= points <= 1000:
+        raise BadValue("--points", points, "must lie between 2 and 1000")
+    if not low < high or (spaced and low <= 0):
+        raise BadValue("--vary", f"{vary}={low:g}..{high:g}", "needs low < high"
+                       + (" and low above zero for log spacing (or --linear)" if spaced else ""))
+    b = built(req)
+    pts = values(low, high, points, spaced)
+    if hasattr(store, "parts_columns"):
+        cols: dict[str, None] = {}
+        for v in (pts[0], pts[-1]):
+            try:
+                probe = variable.apply(b, float(v))
+                cols.update(dict.fromkeys(needed_columns(minimum_specs(
+                    probe if probe.network is not None else built(probe)))))
+            except PickerError:  # an impossible end point: the other end decides
+                continue
+        cols.update(dict.fromkeys(needed_columns(minimum_specs(b))))
+        parts = Parts.from_columns(*store.parts_columns(tuple(cols)))
+    else:
+        parts = store if isinstance(store, Parts) else Parts(store)
+    return run(b, parts, variable, pts, built, log=spaced)
+
+
 __all__ = ["PartReport", "built", "candidates", "design_network", "envelope", "part_frame",
-           "parts_for",
+           "parts_for", "sweep",
            "pick",
            "requirement", "response", "spec", "waveform", "why"]
