@@ -89,7 +89,7 @@ def parts_for(spec_: Spec, store: Any) -> Parts:
 
 
 def pick(req: Requirement, parts: Parts | Any, *, by: By = "margin", top: int | None = None,
-         strict: bool = False) -> Selection:
+         strict: bool = False, misses: int | None = None) -> Selection:
     """Check every part against the stage as built; rank the accepted ones.
 
     Parameters
@@ -103,6 +103,10 @@ def pick(req: Requirement, parts: Parts | Any, *, by: By = "margin", top: int | 
         Keep only the best ``top`` accepted parts.
     strict : bool
         Reject parts with unknown values instead of listing them as unverified.
+    misses : int, optional
+        How many of the closest rejected parts get their nearest misses (how far the
+        stage would have to move for each to pass); default 3 when nothing is accepted,
+        none otherwise.
 
     Returns
     -------
@@ -113,7 +117,7 @@ def pick(req: Requirement, parts: Parts | Any, *, by: By = "margin", top: int | 
     b = built(req)
     if hasattr(parts, "parts_columns"):
         parts = parts_for(minimum_specs(b), parts)
-    return select(parts, b, by=by, top=top, strict=strict)
+    return select(parts, b, by=by, top=top, strict=strict, misses=misses)
 
 
 @dataclass(frozen=True)

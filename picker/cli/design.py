@@ -47,6 +47,9 @@ def spec(stage: dict[str, Any], explain: bool, as_json: bool) -> None:
               show_default=True, help="order of the accepted parts")
 @click.option("--top", type=click.IntRange(min=1, max=1_000_000_000), help="show only the best N accepted parts")
 @click.option("--strict", is_flag=True, help="reject parts with unknown parameters")
+@click.option("--misses", type=click.IntRange(min=0, max=50), metavar="N",
+              help="how far the stage would have to move for each of the N closest rejected "
+                   "parts to pass (default: 3 when nothing passes, else none)")
 @click.option("--list", "listed", metavar="N|all",
               help="how many accepted (best first), rejected and unverified parts (closest "
               "first) to write out (default 20; with --json all, unless given)")
@@ -56,8 +59,8 @@ def spec(stage: dict[str, Any], explain: bool, as_json: bool) -> None:
 @click.option("--for", "project", metavar="PROJECT", help="the project --reserve takes parts for")
 @click.option("--yes", is_flag=True, help="with --reserve: do not ask for confirmation")
 @db_option
-def pick(stage: dict[str, Any], by: str, top: int | None, strict: bool, listed: str | None,
-         as_json: bool,
+def pick(stage: dict[str, Any], by: str, top: int | None, strict: bool, misses: int | None,
+         listed: str | None, as_json: bool,
          reserve: bool, project: str | None, yes: bool, db: str | None) -> None:
     """Check every part in stock against a stage; best first, rejections explained.
 
@@ -76,7 +79,8 @@ def pick(stage: dict[str, Any], by: str, top: int | None, strict: bool, listed: 
     cap = _listed(listed) if listed is not None else (None if as_json else max(20, top or 0))
     req = build_requirement(stage)
     store = open_store(db)
-    sel = api.pick(req, store, by=by, top=top, strict=strict)  # type: ignore[arg-type]
+    sel = api.pick(req, store, by=by, top=top, strict=strict,  # type: ignore[arg-type]
+                   misses=misses)
     if as_json:
         import sys
 

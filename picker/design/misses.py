@@ -49,6 +49,13 @@ class NearMiss:
     fails: list[str]
     moves: list[Move]
 
+    def to_json(self) -> dict[str, object]:
+        """The part, its failing checks and each move (SI units; value None: this way
+        cannot help within a factor of 10⁶)."""
+        return {"part": self.part, "fails": self.fails,
+                "moves": [{"axis": m.axis, "from": m.old, "to": m.value, "change": m.change}
+                          for m in self.moves]}
+
 
 def _passes(parts: Parts, req: Requirement, strict: bool) -> bool:
     table = run_checks(parts, minimum_specs(req))

@@ -118,6 +118,7 @@ class Selection:
                                "accepted": items(self.accepted, None),
                                "rejected": items(rejected, "fails"),
                                "unverified": items(unverified, "unknown")}
+        out["nearest"] = [n.to_json() for n in self.nearest]
         if listed is not None:
             out["counts"] = {"accepted": self.accepted_total, "rejected": len(self.rejected),
                              "unverified": len(self.unverified)}
@@ -142,9 +143,12 @@ def select(
     by: By = "margin",
     top: int | None = None,
     strict: bool = False,
-    misses: int = 3,
+    misses: int | None = None,
 ) -> Selection:
-    """Check every part of ``parts_df`` against ``req`` and sort them out (see above)."""
+    """Check every part of ``parts_df`` against ``req`` and sort them out (see above).
+
+    ``misses``: how many of the closest rejected parts get their nearest misses; None
+    (the default) gives 3 when nothing is accepted and none otherwise."""
     from picker.errors import BadValue
 
     if by not in BY:
@@ -178,10 +182,11 @@ def select(
                          -margin)
     sel = Selection(spec, table, parts, by, strict, accepted, rejected, unverified,
                     accepted_total=total, assumed=assumed)
-    if not accepted and rejected and misses > 0:
+    wanted = (3 if not accepted else 0) if misses is None else misses
+    if rejected and wanted > 0:
         from picker.design.misses import nearest_misses
 
-        sel.nearest.extend(nearest_misses(sel, misses))
+        sel.nearest.extend(nearest_misses(sel, wanted, looked_at=max(10, wanted)))
     return sel
 
 

@@ -65,7 +65,7 @@ def test_pick_lists_ranked_parts_and_explains_rejections(db: str) -> None:
 
 def test_pick_json_shape_and_orders(db: str) -> None:
     js = json.loads(run("pick", *STAGE, "--json", "--db", db).stdout)
-    assert set(js) == {"spec", "accepted", "rejected", "unverified"}
+    assert set(js) == {"spec", "accepted", "rejected", "unverified", "nearest"}
     assert js["accepted"], "the demo stockroom has parts for this stage"
     margins = [min(c["margin"] for n, c in a["checks"].items()
                    if n != "stock" and c["margin"] is not None) for a in js["accepted"]]

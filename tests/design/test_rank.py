@@ -69,7 +69,7 @@ def test_strict_rejects_unknowns() -> None:
 
 def test_json_shape() -> None:
     js = json.loads(json.dumps(select(PARTS, REQ).to_json(), allow_nan=False))
-    assert set(js) == {"spec", "accepted", "rejected", "unverified"}
+    assert set(js) == {"spec", "accepted", "rejected", "unverified", "nearest"}
     assert set(js["spec"]) == {"signal_gain", "noise_gain", "margin", "min", "budget"}
     assert tuple(js["spec"]["min"]) == tuple(f.name for f in fields(Minimums))
     assert set(js["accepted"][0]) == {"part", "phase_at_f_deg", "checks"}
@@ -118,3 +118,20 @@ def test_parts_with_nothing_recorded_are_unverified_not_passed() -> None:
     assert by_name("offset").needed(sel.spec) == ("vos_v", "ib_a", "ios_a")  # no drift at 25 °C
     empty = select(PARTS.iloc[:0], REQ)
     assert (empty.accepted, empty.rejected, empty.unverified, empty.nearest) == ([], [], [], [])
+
+
+def test_nearest_misses_on_request_when_parts_pass() -> None:
+    """--misses N: the moves are computed even when some parts are accepted, and they
+    land in the JSON; slew need ∝ f·Vp (common practice, no source)."""
+    sel = select(PARTS, REQ)
+    assert sel.accepted and sel.nearest == []  # by default only when nothing passes
+    sel = select(PARTS, REQ, misses=1)
+    (slow,) = sel.nearest
+    assert slow.part == "slow d"
+    moves = {m.axis: m for m in slow.moves}
+    assert_allclose(moves["freq"].value, 5e3, rtol=1e-4)  # half the slew rate: half f
+    data = json.loads(json.dumps(sel.to_json()))
+    (near,) = data["nearest"]
+    assert near["part"] == "slow d" and near["fails"] == ["slew"]
+    freq = next(m for m in near["moves"] if m["axis"] == "freq")
+    assert_allclose([freq["from"], freq["to"], freq["change"]], [10e3, 5e3, -0.5], rtol=1e-4)
