@@ -363,7 +363,119 @@ def sweep(req: Requirement, store: Any, vary: str, low: float, high: float, *,
     return run(b, parts, variable, pts, built, log=spaced)
 
 
-__all__ = ["PartReport", "built", "candidates", "design_network", "envelope", "part_frame",
+def requirement_rows(req: Requirement) -> list[tuple[str, str]]:
+    """The requirement as (key, value) lines in engineering units, defaults included."""
+    from picker.quantities import fmt
+
+    def opt(v: float | None, kind: Any, none: str = "not limited") -> str:
+        return none if v is None else fmt(v, kind, 4)
+
+    rows = [("topology", req.topology), ("gain", f"{req.gain:.6g} V/V"),
+            ("output amplitude", fmt(req.vout, "voltage", 4) + " peak"),
+            ("input amplitude", fmt(req.vin, "voltage", 4) + " peak"),
+            ("top frequency", fmt(req.freq_hz, "frequency", 4)),
+            ("rails", f"{req.rail_pos:+g} V / {req.rail_neg:+g} V"),
+            ("reference", fmt(req.ref, "voltage", 4)),
+            ("load", opt(req.load_ohm, "resistance", "none")),
+            ("source", fmt(req.source_ohm, "resistance", 4)),
+            ("capacitive load", fmt(req.cload_f, "capacitance", 4)),
+            ("gain error", fmt(req.gain_error, "ratio", 4)),
+            ("resistor tolerance", f"{fmt(req.tolerance, 'ratio', 4)} ({req.tolerance_rule})"),
+            ("phase error", opt(req.phase_error_deg, "angle")),
+            ("phase margin", fmt(req.phase_margin_deg, "angle", 4)),
+            ("offset max", opt(req.offset_max_v, "voltage")),
+            ("noise max (RMS)", opt(req.noise_max_v, "voltage")),
+            ("ambient", f"{req.temp_min_c:g} .. {req.temp_max_c:g} °C"),
+            ("channels", str(req.qty)), ("design margin", f"{req.margin:g}")]
+    if req.vcm is not None:
+        rows.append(("input common mode", f"{req.vcm[0]:g} .. {req.vcm[1]:g} V"))
+    if req.cmrr_min_db is not None:
+        rows.append(("CMRR min", f"{req.cmrr_min_db:g} dB"))
+    if req.ripple is not None:
+        rows.append(("rail ripple", f"{fmt(req.ripple[0], 'voltage', 4)} peak at "
+                                    f"{fmt(req.ripple[1], 'frequency', 4)}"))
+    if req.network is not None:
+        rows.append(("network", ", ".join(f"{k} {fmt(v, 'resistance', 4)}"
+                                          for k, v in req.network.items())))
+    for f, v in req.assume.items():
+        rows.append((f"assumed {f}", repr(v)))
+    return rows
+
+
+def note(req: Requirement, store: Any, part: str | None = None, *,
+         database: str = "", title: str | None = None) -> Any:
+    """Everything a design note shows (``picker note``), computed once.
+
+    Parameters
+    ----------
+    req : Requirement
+    store : Store
+    part : str, optional
+        The part to write up; default: the best accepted part (else the best
+        unverified, else the closest miss, said so in the note).
+    database : str
+        Where the parts came from, as shown (no password).
+    title : str, optional
+
+    Returns
+    -------
+    picker.report.note.Note
+    """
+    import datetime
+
+    from picker import __version__
+    from picker.errors import PickerError
+    from picker.quantities import fmt
+    from picker.report.note import Note
+
+    b = built(req)
+    sel = pick(b, store, misses=0)
+    missing: dict[str, str] = {}
+    status = "chosen by --part"
+    if part is None:
+        found = [(words, entries[0].part) for words, entries in (
+            ("accepted, best by margin", sel.accepted),
+            ("unverified: some values unknown", sel.unverified),
+            ("rejected: the closest miss, nothing passes", sel.rejected)) if entries]
+        if found:
+            status, part = found[0]
+    chosen = why(b, part, store) if part is not None else None
+    if part is None:
+        missing["chosen"] = "The stockroom has no parts."
+    network = waves = resp = env = stock = None
+    if part is not None:
+        row = store.get(part)
+        stock = {**row, "reserved": store.reserved(part)}
+        stock["available"] = None if row.get("qty") is None else int(row["qty"]) - stock[
+            "reserved"]
+        for sid, make in (("network", lambda: design_network(b, row)),
+                          ("waveform", lambda: waveform(b, store, part)),
+                          ("response", lambda: response(b, store, part))):
+            try:
+                value = make()
+            except PickerError as exc:
+                missing[sid] = f"Not available for {part}: {exc}"
+                continue
+            if sid == "network":
+                network = value
+            elif sid == "waveform":
+                waves = value
+            else:
+                resp = value
+        others = [e.part for e in [*sel.accepted[:3], *sel.unverified[:3]] if e.part != part]
+        env = envelope(b, store, [part, *others[:2]])
+    return Note(
+        title=title or f"{b.topology} stage, gain {b.gain:.6g}, {fmt(b.vout, 'voltage', 4)} "
+                       f"peak at {fmt(b.freq_hz, 'frequency', 4)}",
+        made=datetime.datetime.now().astimezone().isoformat(timespec="minutes"),
+        database=database, version=__version__, requirement=requirement_rows(b),
+        cautions=b.cautions, selection=sel, chosen=chosen, chosen_status=status,
+        network=network, waves=waves, response=resp, envelope=env, stock=stock,
+        missing=missing)
+
+
+__all__ = ["PartReport", "built", "candidates", "design_network", "envelope", "note",
+           "part_frame", "requirement_rows",
            "parts_for", "sweep",
            "pick",
            "requirement", "response", "spec", "waveform", "why"]

@@ -28,6 +28,7 @@ COMMANDS: dict[str, tuple[str, str]] = {
     "net": ("picker.cli.network:net", "design the stage's resistor network from E-series values"),
     "wave": ("picker.cli.wave:wave", "predict the output waveform of a part in the stage"),
     "bode": ("picker.cli.wave:bode", "closed-loop gain and phase over frequency"),
+    "note": ("picker.cli.note:note", "write a one-page design note (HTML or Markdown)"),
     "sweep": ("picker.cli.sweep:sweep",
               "vary one value of the stage: where each part passes, what stops it"),
     "envelope": ("picker.cli.envelope:envelope",
