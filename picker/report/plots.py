@@ -126,7 +126,10 @@ def grid_figure(waves: Waves, indices: list[int], size_px: tuple[int, int] = GRI
             continue
         i = indices[k]
         name = waves.labels[i] if names is None else names[k]
-        draw_wave(ax, waves, i, legend=(k == 0), title=f"{name}\n{_limits_text(waves, i)}")
+        draw_wave(ax, waves, i, legend=False, title=f"{name}\n{_limits_text(waves, i)}")
+    # one legend for every panel, below them, where it cannot sit on a trace
+    handles, labels = axes.flat[0].get_legend_handles_labels()
+    fig.legend(handles, labels, loc="outside lower center", ncols=len(labels), frameon=False)
     d = waves.drive
     fig.suptitle(heading or (
         f"Top candidates: {fmt(d.vin_pk, 'voltage')} peak sine in at "

@@ -79,3 +79,8 @@ def test_grid_png(tmp_path: Path) -> None:
         "part four", "part one", "part two", "part three"]
     assert all(ax.get_ylabel() == "output [V]" for ax in visible)
     assert all("[µs]" in ax.get_xlabel() for ax in visible)
+    # one legend for all panels, outside them: it can sit on no trace
+    assert all(ax.get_legend() is None for ax in visible) and len(fig.legends) == 1
+    renderer = fig.canvas.get_renderer()  # type: ignore[attr-defined]
+    box = fig.legends[0].get_window_extent(renderer)
+    assert not any(box.overlaps(ax.get_window_extent(renderer)) for ax in visible)
