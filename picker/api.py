@@ -146,14 +146,68 @@ def why(req: Requirement, part: str, store: Any) -> PartReport:
 
     Raises NotFound (with the fix) when the label is not in the stockroom.
     """
+    return _report(req, spec(req), part, store)
+
+
+def _report(req: Requirement, s: Spec, part: str, store: Any) -> PartReport:
     from picker.store import Condition
 
     store.get(part)  # NotFound, with a hint, when the label is not in the stockroom
     parts, masks = Parts(store.parts_frame(conditions=[Condition("label", "=", part)])
                          ).assuming(req.assume)
-    s = spec(req)
     assumed = {f: float(parts[f][0]) for f, m in masks.items() if m[0]}
     return PartReport(part, s, run_checks(parts, s), parts, assumed)
+
+
+#: How many parts ``picker why`` sets side by side.
+MAX_SIDE_BY_SIDE = 3
+
+
+@dataclass(frozen=True)
+class SideBySide:
+    """The check sheets of two or three parts for one stage (``picker why A B [C]``)."""
+
+    reports: tuple[PartReport, ...]
+
+    @property
+    def spec(self) -> Spec:
+        return self.reports[0].spec
+
+    def to_json(self) -> list[dict[str, Any]]:
+        """``picker why A B --json``: the list of each part's ``why`` record, in order."""
+        return [r.to_json() for r in self.reports]
+
+
+def why_side_by_side(req: Requirement, parts: list[str] | tuple[str, ...],
+                     store: Any) -> SideBySide:
+    """The check sheets of two or three parts (by label) in the stage as built.
+
+    The stage is designed once; each part's sheet equals ``why(req, part, store)``.
+
+    Parameters
+    ----------
+    req : Requirement
+    parts : sequence of str
+        Two or three distinct labels.
+    store : Store
+
+    Returns
+    -------
+    SideBySide
+        ``to_json()`` is ``picker why A B [C] --json``. BadValue when fewer than two,
+        more than three or repeated labels are given; NotFound for an unknown label.
+    """
+    from picker.errors import BadValue
+
+    labels = tuple(parts)
+    if not 2 <= len(labels) <= MAX_SIDE_BY_SIDE:
+        raise BadValue("PART", " ".join(labels), f"names {len(labels)} parts; give two or "
+                       f"three to set side by side (one for a single sheet)")
+    repeated = sorted({p for p in labels if labels.count(p) > 1})
+    if repeated:
+        raise BadValue("PART", repeated[0], "is named twice; give each part once")
+    s = spec(req)
+    return SideBySide(tuple(_report(req, s, p, store) for p in labels))
 
 
 def design_network(req: Requirement, part: Mapping[str, Any] | None = None, *,
@@ -259,6 +313,6 @@ def response(req: Requirement, store: Any, part: str, freq_hz: float | None = No
     return out
 
 
-__all__ = ["PartReport", "built", "candidates", "design_network", "part_frame", "parts_for",
+__all__ = ["MAX_SIDE_BY_SIDE", "PartReport", "SideBySide", "built", "candidates", "design_network", "part_frame", "parts_for",
            "pick",
-           "requirement", "response", "spec", "waveform", "why"]
+           "requirement", "response", "spec", "waveform", "why", "why_side_by_side"]

@@ -104,21 +104,39 @@ def _listed(text: str) -> int | None:
 
 
 @click.command()
-@click.argument("part")
+@click.argument("parts", nargs=-1, required=True, metavar="PART [PART [PART]]")
 @requirement_options
 @click.option("--json", "as_json", is_flag=True,
               help='JSON on stdout: {"part", "spec", "verdict", "checks": {NAME: {"status", '
-              '"need", "has", "margin"}}} (SI base units)')
+              '"need", "has", "margin"}}} (SI base units); a list of them for two or three '
+              "parts")
 @db_option
-def why(part: str, stage: dict[str, Any], as_json: bool, db: str | None) -> None:
-    """The full check sheet of one PART for a stage: each check with formula and numbers."""
+def why(parts: tuple[str, ...], stage: dict[str, Any], as_json: bool, db: str | None) -> None:
+    """The full check sheet of one PART for a stage: each check with formula and numbers.
+
+    With two or three parts, their sheets side by side: each check's need, then each
+    part's value, margin and status, its limiting check marked. Example:
+
+        picker why bip-gp-a jfet-gp-a --topology inverting --gain 10 --vin 0.5V --freq 20kHz --rails ±12
+    """
     from picker import api
+    from picker.report.tables import to_json
+
+    req = build_requirement(stage)
+    if len(parts) > 1:
+        from picker.report.checks import side_by_side_text
+
+        side = api.why_side_by_side(req, parts, open_store(db))
+        if as_json:
+            click.echo(to_json(side.to_json()))
+            _cautions_to_stderr(side.spec.cautions)
+        else:
+            click.echo(side_by_side_text(side.reports))
+        return
     from picker.report.checks import why_text
 
-    report = api.why(build_requirement(stage), part, open_store(db))
+    report = api.why(req, parts[0], open_store(db))
     if as_json:
-        from picker.report.tables import to_json
-
         click.echo(to_json(report.to_json()))
         _cautions_to_stderr(report.spec.cautions)
         return
