@@ -313,6 +313,49 @@ def response(req: Requirement, store: Any, part: str, freq_hz: float | None = No
     return out
 
 
-__all__ = ["MAX_SIDE_BY_SIDE", "PartReport", "SideBySide", "built", "candidates", "design_network", "part_frame", "parts_for",
+def netlist(req: Requirement, store: Any, part: str) -> str:
+    """The stage as built, with one part (by label), as a plain SPICE deck for ngspice.
+
+    The designed network, the source and its resistance, the load, and the part's
+    linear macromodel with its output reach per rail (picker.report.spice), with
+    ``.op``, ``.tf``, ``.ac`` and ``.tran`` analyses (``picker netlist``).
+
+    Returns
+    -------
+    str
+        The deck. BadValue naming the field (and ``--assume``) when the part leaves a
+        value the macromodel needs blank: nothing ideal is put in its place. The
+        saturation resistances may instead be taken as 0 (light-load reach) with the
+        requirement's ``light_load_swing``, stated in the deck's header.
+    """
+    from picker.errors import BadValue
+    from picker.fields import BY_NAME
+    from picker.report.checks import stage_line
+    from picker.report.spice import DECK_FIELDS, DeckInput, deck
+    from picker.stages import stage
+
+    b = built(req)
+    parts, masks = Parts(part_frame(store, part, DECK_FIELDS)).assuming(req.assume)
+    values: dict[str, float] = {}
+    notes = [f"{f} = {float(parts[f][0])!r} (--assume)" for f, m in masks.items()
+             if m[0] and f in DECK_FIELDS]
+    for f in DECK_FIELDS:
+        v = float(parts[f][0])
+        if math.isnan(v) and f.startswith("out_rsat") and req.light_load_swing:
+            v = 0.0
+            notes.append(f"{f} = 0: the light-load reach (--light-load-swing)")
+        if math.isnan(v):
+            raise BadValue("PART", part, f"has no {f} ({BY_NAME[f].help}) recorded, which the "
+                           f"deck's macromodel needs; record it (picker parts edit {part} "
+                           f"{f}=...) or give --assume {f}=VALUE")
+        values[f] = v
+    st = stage(b)
+    return deck(DeckInput(title=stage_line(b), part=part, values=values, circuit=st.circuit,
+                          noise_gain=st.noise_gain, ref_v=b.ref, rail_pos=b.rail_pos,
+                          rail_neg=b.rail_neg, vin_pk=b.vin, freq_hz=b.freq_hz,
+                          notes=tuple(notes)))
+
+
+__all__ = ["MAX_SIDE_BY_SIDE", "PartReport", "SideBySide", "built", "candidates", "design_network", "netlist", "part_frame", "parts_for",
            "pick",
            "requirement", "response", "spec", "waveform", "why", "why_side_by_side"]

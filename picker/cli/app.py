@@ -28,6 +28,7 @@ COMMANDS: dict[str, tuple[str, str]] = {
     "net": ("picker.cli.network:net", "design the stage's resistor network from E-series values"),
     "wave": ("picker.cli.wave:wave", "predict the output waveform of a part in the stage"),
     "bode": ("picker.cli.wave:bode", "closed-loop gain and phase over frequency"),
+    "netlist": ("picker.cli.netlist:netlist", "the stage with one part as a SPICE deck for ngspice"),
     "stock": ("picker.cli.stock:stock", "take, reserve, release, issue, return, restock and count parts; the log"),
 }
 
