@@ -7,7 +7,12 @@ from typing import Any
 import click
 
 from picker.cli.params import db_option, open_store
-from picker.cli.reqopts import build_requirement, requirement_options
+from picker.cli.reqopts import (
+    build_requirement,
+    requirement_options,
+    save_option,
+    save_requirement,
+)
 
 
 def _cautions_to_stderr(cautions: list[str]) -> None:
@@ -20,7 +25,10 @@ def _cautions_to_stderr(cautions: list[str]) -> None:
 @requirement_options
 @click.option("--explain", is_flag=True, help="each minimum with its formula and numbers")
 @click.option("--json", "as_json", is_flag=True, help="JSON on stdout (SI base units)")
-def spec(stage: dict[str, Any], explain: bool, as_json: bool) -> None:
+@save_option
+@db_option
+def spec(stage: dict[str, Any], explain: bool, as_json: bool, save: str | None,
+         db: str | None) -> None:
     """The minimum op-amp specifications a stage needs.
 
     Noise and signal gain, slew rate, gain-bandwidth product, open-loop gain, input
@@ -39,6 +47,7 @@ def spec(stage: dict[str, Any], explain: bool, as_json: bool) -> None:
         _cautions_to_stderr(s.cautions)
     else:
         click.echo(spec_text(s, explain))
+    save_requirement(stage, save, db)
 
 
 @click.command()
@@ -55,10 +64,11 @@ def spec(stage: dict[str, Any], explain: bool, as_json: bool) -> None:
               help="take the top accepted part for --for PROJECT (asks first)")
 @click.option("--for", "project", metavar="PROJECT", help="the project --reserve takes parts for")
 @click.option("--yes", is_flag=True, help="with --reserve: do not ask for confirmation")
+@save_option
 @db_option
 def pick(stage: dict[str, Any], by: str, top: int | None, strict: bool, listed: str | None,
-         as_json: bool,
-         reserve: bool, project: str | None, yes: bool, db: str | None) -> None:
+         as_json: bool, reserve: bool, project: str | None, yes: bool, save: str | None,
+         db: str | None) -> None:
     """Check every part in stock against a stage; best first, rejections explained.
 
     A part is accepted when every check passes, rejected when one fails, unverified
@@ -86,6 +96,7 @@ def pick(stage: dict[str, Any], by: str, top: int | None, strict: bool, listed: 
         _cautions_to_stderr(sel.cautions)
     else:
         click.echo(pick_text(sel, cap))
+    save_requirement(stage, save, db)
     if reserve:
         from picker.cli.stock import reserve_top
 
