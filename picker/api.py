@@ -150,14 +150,68 @@ def why(req: Requirement, part: str, store: Any) -> PartReport:
 
     Raises NotFound (with the fix) when the label is not in the stockroom.
     """
+    return _report(req, spec(req), part, store)
+
+
+def _report(req: Requirement, s: Spec, part: str, store: Any) -> PartReport:
     from picker.store import Condition
 
     store.get(part)  # NotFound, with a hint, when the label is not in the stockroom
     parts, masks = Parts(store.parts_frame(conditions=[Condition("label", "=", part)])
                          ).assuming(req.assume)
-    s = spec(req)
     assumed = {f: float(parts[f][0]) for f, m in masks.items() if m[0]}
     return PartReport(part, s, run_checks(parts, s), parts, assumed)
+
+
+#: How many parts ``picker why`` sets side by side.
+MAX_SIDE_BY_SIDE = 3
+
+
+@dataclass(frozen=True)
+class SideBySide:
+    """The check sheets of two or three parts for one stage (``picker why A B [C]``)."""
+
+    reports: tuple[PartReport, ...]
+
+    @property
+    def spec(self) -> Spec:
+        return self.reports[0].spec
+
+    def to_json(self) -> list[dict[str, Any]]:
+        """``picker why A B --json``: the list of each part's ``why`` record, in order."""
+        return [r.to_json() for r in self.reports]
+
+
+def why_side_by_side(req: Requirement, parts: list[str] | tuple[str, ...],
+                     store: Any) -> SideBySide:
+    """The check sheets of two or three parts (by label) in the stage as built.
+
+    The stage is designed once; each part's sheet equals ``why(req, part, store)``.
+
+    Parameters
+    ----------
+    req : Requirement
+    parts : sequence of str
+        Two or three distinct labels.
+    store : Store
+
+    Returns
+    -------
+    SideBySide
+        ``to_json()`` is ``picker why A B [C] --json``. BadValue when fewer than two,
+        more than three or repeated labels are given; NotFound for an unknown label.
+    """
+    from picker.errors import BadValue
+
+    labels = tuple(parts)
+    if not 2 <= len(labels) <= MAX_SIDE_BY_SIDE:
+        raise BadValue("PART", " ".join(labels), f"names {len(labels)} parts; give two or "
+                       f"three to set side by side (one for a single sheet)")
+    repeated = sorted({p for p in labels if labels.count(p) > 1})
+    if repeated:
+        raise BadValue("PART", repeated[0], "is named twice; give each part once")
+    s = spec(req)
+    return SideBySide(tuple(_report(req, s, p, store) for p in labels))
 
 
 def design_network(req: Requirement, part: Mapping[str, Any] | None = None, *,
@@ -474,8 +528,50 @@ def note(req: Requirement, store: Any, part: str | None = None, *,
         missing=missing)
 
 
-__all__ = ["PartReport", "built", "candidates", "design_network", "envelope", "note",
-           "part_frame", "requirement_rows",
-           "parts_for", "sweep",
-           "pick",
-           "requirement", "response", "spec", "waveform", "why"]
+def netlist(req: Requirement, store: Any, part: str) -> str:
+    """The stage as built, with one part (by label), as a plain SPICE deck for ngspice.
+
+    The designed network, the source and its resistance, the load, and the part's
+    linear macromodel with its output reach per rail (picker.report.spice), with
+    ``.op``, ``.tf``, ``.ac`` and ``.tran`` analyses (``picker netlist``).
+
+    Returns
+    -------
+    str
+        The deck. BadValue naming the field (and ``--assume``) when the part leaves a
+        value the macromodel needs blank: nothing ideal is put in its place. The
+        saturation resistances may instead be taken as 0 (light-load reach) with the
+        requirement's ``light_load_swing``, stated in the deck's header.
+    """
+    from picker.errors import BadValue
+    from picker.fields import BY_NAME
+    from picker.report.checks import stage_line
+    from picker.report.spice import DECK_FIELDS, DeckInput, deck
+    from picker.stages import stage
+
+    b = built(req)
+    parts, masks = Parts(part_frame(store, part, DECK_FIELDS)).assuming(req.assume)
+    values: dict[str, float] = {}
+    notes = [f"{f} = {float(parts[f][0])!r} (--assume)" for f, m in masks.items()
+             if m[0] and f in DECK_FIELDS]
+    for f in DECK_FIELDS:
+        v = float(parts[f][0])
+        if math.isnan(v) and f.startswith("out_rsat") and req.light_load_swing:
+            v = 0.0
+            notes.append(f"{f} = 0: the light-load reach (--light-load-swing)")
+        if math.isnan(v):
+            raise BadValue("PART", part, f"has no {f} ({BY_NAME[f].help}) recorded, which the "
+                           f"deck's macromodel needs; record it (picker parts edit {part} "
+                           f"{f}=...) or give --assume {f}=VALUE")
+        values[f] = v
+    st = stage(b)
+    return deck(DeckInput(title=stage_line(b), part=part, values=values, circuit=st.circuit,
+                          noise_gain=st.noise_gain, ref_v=b.ref, rail_pos=b.rail_pos,
+                          rail_neg=b.rail_neg, vin_pk=b.vin, freq_hz=b.freq_hz,
+                          notes=tuple(notes)))
+
+
+__all__ = ["MAX_SIDE_BY_SIDE", "PartReport", "SideBySide", "built", "candidates",
+           "design_network", "envelope", "netlist", "note", "part_frame", "parts_for", "pick",
+           "requirement", "requirement_rows", "response", "spec", "sweep", "waveform", "why",
+           "why_side_by_side"]

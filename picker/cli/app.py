@@ -25,6 +25,7 @@ COMMANDS: dict[str, tuple[str, str]] = {
     "spec": ("picker.cli.design:spec", "the minimum op-amp specifications a stage implies"),
     "pick": ("picker.cli.design:pick", "check every part in stock against a stage, ranked"),
     "why": ("picker.cli.design:why", "the full check sheet of one part for a stage"),
+    "design": ("picker.cli.designfile:design", "design files: a commented template of every requirement key"),
     "net": ("picker.cli.network:net", "design the stage's resistor network from E-series values"),
     "wave": ("picker.cli.wave:wave", "predict the output waveform of a part in the stage"),
     "bode": ("picker.cli.wave:bode", "closed-loop gain and phase over frequency"),
@@ -33,6 +34,7 @@ COMMANDS: dict[str, tuple[str, str]] = {
               "vary one value of the stage: where each part passes, what stops it"),
     "envelope": ("picker.cli.envelope:envelope",
                  "largest output amplitude each part supports, by frequency"),
+    "netlist": ("picker.cli.netlist:netlist", "the stage with one part as a SPICE deck for ngspice"),
     "stock": ("picker.cli.stock:stock", "take, reserve, release, issue, return, restock and count parts; the log"),
 }
 

@@ -7,7 +7,12 @@ from typing import Any
 import click
 
 from picker.cli.params import db_option, open_store
-from picker.cli.reqopts import build_requirement, requirement_options
+from picker.cli.reqopts import (
+    build_requirement,
+    requirement_options,
+    save_option,
+    save_requirement,
+)
 
 
 def _cautions_to_stderr(cautions: list[str]) -> None:
@@ -20,7 +25,10 @@ def _cautions_to_stderr(cautions: list[str]) -> None:
 @requirement_options
 @click.option("--explain", is_flag=True, help="each minimum with its formula and numbers")
 @click.option("--json", "as_json", is_flag=True, help="JSON on stdout (SI base units)")
-def spec(stage: dict[str, Any], explain: bool, as_json: bool) -> None:
+@save_option
+@db_option
+def spec(stage: dict[str, Any], explain: bool, as_json: bool, save: str | None,
+         db: str | None) -> None:
     """The minimum op-amp specifications a stage needs.
 
     Noise and signal gain, slew rate, gain-bandwidth product, open-loop gain, input
@@ -39,6 +47,7 @@ def spec(stage: dict[str, Any], explain: bool, as_json: bool) -> None:
         _cautions_to_stderr(s.cautions)
     else:
         click.echo(spec_text(s, explain))
+    save_requirement(stage, save, db)
 
 
 @click.command()
@@ -58,10 +67,11 @@ def spec(stage: dict[str, Any], explain: bool, as_json: bool) -> None:
               help="take the top accepted part for --for PROJECT (asks first)")
 @click.option("--for", "project", metavar="PROJECT", help="the project --reserve takes parts for")
 @click.option("--yes", is_flag=True, help="with --reserve: do not ask for confirmation")
+@save_option
 @db_option
 def pick(stage: dict[str, Any], by: str, top: int | None, strict: bool, misses: int | None,
-         listed: str | None, as_json: bool,
-         reserve: bool, project: str | None, yes: bool, db: str | None) -> None:
+         listed: str | None, as_json: bool, reserve: bool, project: str | None, yes: bool,
+         save: str | None, db: str | None) -> None:
     """Check every part in stock against a stage; best first, rejections explained.
 
     A part is accepted when every check passes, rejected when one fails, unverified
@@ -90,6 +100,7 @@ def pick(stage: dict[str, Any], by: str, top: int | None, strict: bool, misses: 
         _cautions_to_stderr(sel.cautions)
     else:
         click.echo(pick_text(sel, cap))
+    save_requirement(stage, save, db)
     if reserve:
         from picker.cli.stock import reserve_top
 
@@ -108,21 +119,39 @@ def _listed(text: str) -> int | None:
 
 
 @click.command()
-@click.argument("part")
+@click.argument("parts", nargs=-1, required=True, metavar="PART [PART [PART]]")
 @requirement_options
 @click.option("--json", "as_json", is_flag=True,
               help='JSON on stdout: {"part", "spec", "verdict", "checks": {NAME: {"status", '
-              '"need", "has", "margin"}}} (SI base units)')
+              '"need", "has", "margin"}}} (SI base units); a list of them for two or three '
+              "parts")
 @db_option
-def why(part: str, stage: dict[str, Any], as_json: bool, db: str | None) -> None:
-    """The full check sheet of one PART for a stage: each check with formula and numbers."""
+def why(parts: tuple[str, ...], stage: dict[str, Any], as_json: bool, db: str | None) -> None:
+    """The full check sheet of one PART for a stage: each check with formula and numbers.
+
+    With two or three parts, their sheets side by side: each check's need, then each
+    part's value, margin and status, its limiting check marked. Example:
+
+        picker why bip-gp-a jfet-gp-a --topology inverting --gain 10 --vin 0.5V --freq 20kHz --rails ±12
+    """
     from picker import api
+    from picker.report.tables import to_json
+
+    req = build_requirement(stage)
+    if len(parts) > 1:
+        from picker.report.checks import side_by_side_text
+
+        side = api.why_side_by_side(req, parts, open_store(db))
+        if as_json:
+            click.echo(to_json(side.to_json()))
+            _cautions_to_stderr(side.spec.cautions)
+        else:
+            click.echo(side_by_side_text(side.reports))
+        return
     from picker.report.checks import why_text
 
-    report = api.why(build_requirement(stage), part, open_store(db))
+    report = api.why(req, parts[0], open_store(db))
     if as_json:
-        from picker.report.tables import to_json
-
         click.echo(to_json(report.to_json()))
         _cautions_to_stderr(report.spec.cautions)
         return

@@ -7,7 +7,12 @@ from typing import Any
 import click
 
 from picker.cli.params import QuantityParam, db_option, open_store
-from picker.cli.reqopts import build_requirement, requirement_options
+from picker.cli.reqopts import (
+    build_requirement,
+    requirement_options,
+    save_option,
+    save_requirement,
+)
 
 
 class SeriesParam(click.ParamType):
@@ -35,9 +40,10 @@ class SeriesParam(click.ParamType):
               help="take the limits (output current, bias and noise currents, Rin, A0, "
               "GBW) from this part and show its exact closed-loop gain")
 @click.option("--json", "as_json", is_flag=True, help="JSON on stdout (SI base units)")
+@save_option
 @db_option
 def net(stage: dict[str, Any], series: str, zin: float | None,
-        part: str | None, as_json: bool, db: str | None) -> None:
+        part: str | None, as_json: bool, save: str | None, db: str | None) -> None:
     """Design the stage's resistor network from standard values.
 
     Searches every pair of the series' values inside the limits (output load,
@@ -62,7 +68,9 @@ def net(stage: dict[str, Any], series: str, zin: float | None,
         click.echo(to_json(network.as_json()))
         for c in req.cautions:
             click.echo(c, err=True)
+        save_requirement(stage, save, db)
         return
     exact = exact_gain(req, network.network, row) if row is not None else None
     click.echo(render(network, part=part, exact=exact, freq_hz=req.freq_hz,
                       cautions=req.cautions))
+    save_requirement(stage, save, db)

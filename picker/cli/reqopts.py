@@ -105,4 +105,28 @@ def build_requirement(stage: dict[str, Any]) -> Any:
     return requirement_from(options, stage.get("design"))
 
 
-__all__ = ["KEYS", "build_requirement", "requirement_options"]
+def save_option(f: F) -> F:
+    """--save FILE: write the requirement as given to a design file (see save_requirement)."""
+    return click.option(
+        "--save", "save", metavar="FILE", type=click.Path(dir_okay=False),
+        help="write the requirement as given (design file values, options over them) to "
+        "this TOML design file; --design FILE then gives the same result")(f)
+
+
+def save_requirement(stage: dict[str, Any], path: str | None, db: str | None) -> None:
+    """Write ``stage`` as given to ``path`` (replacing it; never the stockroom's files)."""
+    if path is None:
+        return
+    from picker.design.designfile import design_text, write_design
+    from picker.design.requirement import given
+    from picker.store.engine import resolve_url
+    from picker.store.outfile import database_files
+
+    options = {k.replace("_", "-"): v for k, v in stage.items() if k != "design"}
+    text = design_text(given(options, stage.get("design")))
+    write_design(path, text, database_files(resolve_url(db)), overwrite=True, what="--save")
+    click.echo(f"design: {path}", err=True)
+
+
+__all__ = ["KEYS", "build_requirement", "requirement_options", "save_option",
+           "save_requirement"]

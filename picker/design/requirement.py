@@ -642,6 +642,13 @@ def requirement_from(options: Mapping[str, Any], design: str | Path | None = Non
 
     ``options`` holds command-line values under requirement keys (None = not given).
     """
+    return _build(given(options, design))
+
+
+def given(options: Mapping[str, Any], design: str | Path | None = None
+          ) -> dict[str, tuple[Any, str]]:
+    """The requirement as given: key -> (value as written, where), the design file's raw
+    values overridden by the options' (None or () = not given)."""
     values: dict[str, tuple[Any, str]] = {}
     if design is not None:
         where = f"{Path(design).name}: "
@@ -649,7 +656,7 @@ def requirement_from(options: Mapping[str, Any], design: str | Path | None = Non
     for k, v in options.items():
         if v is not None and v != ():
             values[normal_key(k)] = (v, "--")
-    return _build(values)
+    return values
 
 
 def load_design(path: str | Path) -> Requirement:
@@ -659,5 +666,5 @@ def load_design(path: str | Path) -> Requirement:
 
 __all__ = [
     "ELV_DC_V", "KEYS", "TOPOLOGIES", "Requirement", "Topology",
-    "load_design", "read_design", "requirement_from",
+    "given", "load_design", "read_design", "requirement_from",
 ]

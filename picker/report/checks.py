@@ -12,6 +12,9 @@ from typing import TYPE_CHECKING
 from picker.quantities import Kind, fmt
 
 if TYPE_CHECKING:
+    from collections.abc import Sequence
+
+    from picker.api import PartReport
     from picker.checks import CheckResult, CheckTable, Parts
     from picker.design.misses import Move
     from picker.design.rank import Selection
@@ -238,12 +241,60 @@ def why_text(spec: Spec, table: CheckTable, parts: Parts, i: int = 0,
     if assumed:
         lines.append("assumed (blank in the stockroom, taken from --assume): "
                      + ", ".join(f"{k} = {_field_value(k, v)}" for k, v in assumed.items()))
-    verdict = table.verdict(i)
-    words = ("fails " + ", ".join(n for n, r in table.results.items() if r.status(i) == "fail")
-             if verdict == "fail" else "unverified (some checks unknown)"
-             if verdict == "unknown" else "passes")
-    lines += ["", f"Verdict: {label} {words}."]
+    lines += ["", f"Verdict: {label} {_verdict_words(table, i)}."]
     return "\n".join(lines)
 
 
-__all__ = ["limit_line", "percent", "pick_text", "spec_text", "stage_line", "why_text"]
+def _verdict_words(table: CheckTable, i: int) -> str:
+    verdict = table.verdict(i)
+    return ("fails " + ", ".join(n for n, r in table.results.items() if r.status(i) == "fail")
+            if verdict == "fail" else "unverified (some checks unknown)"
+            if verdict == "unknown" else "passes")
+
+
+def side_by_side_text(reports: Sequence[PartReport]) -> str:
+    """``picker why A B [C]``: the check sheets of two or three parts in columns.
+
+    One row per applicable check: its name and need, then for each part what it has,
+    its margin and status; each part's limiting check (the ranked check with its
+    smallest margin, as ``pick`` ranks) is marked ``*``.
+    """
+    from tabulate import tabulate
+
+    from picker.checks import applicable
+
+    spec = reports[0].spec
+    limiting = [r.table.limiting(0) for r in reports]
+    headers = ["check", "need"]
+    for r in reports:
+        headers += [f"{r.part}\nhas", "\nmargin", "\nstatus"]
+    rows = []
+    for check in applicable(spec):
+        results = [r.table.results[check.name] for r in reports]
+        needs = list(dict.fromkeys(f"{res.sense[0]} {fmt(float(res.need[0]), res.kind)}"
+                                   for res in results))
+        row = [check.name, " | ".join(needs)]
+        for res, r, lim in zip(results, reports, limiting, strict=True):
+            status = res.status(0)
+            pct = percent(float(res.margin[0]), status == "fail")
+            has = fmt(float(res.has[0]), res.kind)
+            missing = [f for f in check.needed(spec) if math.isnan(r.parts[f][0])]
+            if status == "unknown" and missing:
+                has = "missing " + ", ".join(missing)
+            row += [has, pct or "-", status + (" *" if check.name == lim else "")]
+        rows.append(row)
+    lines = [f"Stage: {stage_line(spec.requirement)}", *cautions_block(spec.cautions), "",
+             tabulate(rows, headers=headers, disable_numparse=True), "",
+             "* the part's limiting check: its smallest margin among the ranked checks"]
+    for r in reports:
+        if r.assumed:
+            lines.append(f"{r.part}: assumed " + ", ".join(
+                f"{k} = {_field_value(k, v)}" for k, v in r.assumed.items())
+                + " (blank in the stockroom, taken from --assume)")
+    lines.append("")
+    lines += [f"Verdict: {r.part} {_verdict_words(r.table, 0)}." for r in reports]
+    return "\n".join(lines)
+
+
+__all__ = ["limit_line", "percent", "pick_text", "side_by_side_text", "spec_text", "stage_line",
+           "why_text"]

@@ -116,7 +116,6 @@ def test_sqlite_backup_while_another_process_writes(tmp_path: Path) -> None:
     backup(source, final)
     source.dispose()
     assert tables(f"sqlite:///{final}") == tables(url)
-    assert elapsed < 30
 
 
 def test_backup_onto_the_stockroom_itself_is_refused(tmp_path: Path) -> None:

@@ -284,7 +284,6 @@ def test_four_processes_take_800_one_by_one(db_url: str) -> None:
         stock.take(store, "conc-a", 1, "one more", "late")
     assert store.checksum() == before
     store.dispose()
-    assert elapsed < 30
 
 
 def test_mixed_takes_and_returns_from_four_processes(db_url: str) -> None:
@@ -313,4 +312,3 @@ def test_mixed_takes_and_returns_from_four_processes(db_url: str) -> None:
     for r in reports:  # each project's share of the log is what its process did
         assert sum(m.delta for m in moves if m.project == r["project"]) == r["net"]
     store.dispose()
-    assert elapsed < 30
