@@ -57,10 +57,11 @@ def evaluate(expr: str) -> float:
         return repr(_si(number + (" " + unit if unit and unit != "%" else unit or "")))
 
     text = expr.replace("∞", "inf").replace("√", "sqrt").replace("²", "**2").replace("×", "*")
+    text = text.replace("log10(", "lg(")
     text = re.sub(r"(\d)π", r"\1*pi", text)
     text = _VALUE.sub(value, text)
     return float(eval(text, {"__builtins__": {}}, {"pi": math.pi, "sqrt": math.sqrt,
-                                                  "log10": math.log10, "inf": math.inf}))
+                                                  "lg": math.log10, "inf": math.inf}))
 
 
 def _need_and_numbers(numbers: str) -> tuple[float, float]:
