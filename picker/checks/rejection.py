@@ -190,6 +190,18 @@ def _x(p: Parts) -> Array:
     return np.nan_to_num(x, nan=0.0)
 
 
+def stage_db(p: Parts, s: Spec) -> list[float | None]:
+    """The stage's worst-case CMRR with each part, dB (None where the part's CMRR is
+    unknown, or for a stage that is not a difference stage)."""
+    if not CMRR_CHECK.applies(s):
+        return [None] * len(p)
+    op = p["cmrr_db"]
+    with np.errstate(divide="ignore"):
+        db = -20 * np.log10(rejection(s).inverse(_x(p)))
+    return [None if math.isnan(o) or not math.isfinite(d) else d
+            for o, d in zip(op.tolist(), db.tolist(), strict=True)]
+
+
 def _run(p: Parts, s: Spec) -> CheckResult:
     """The stage's worst-case CMRR per part against the need (module docstring)."""
     n = len(p)
@@ -274,4 +286,5 @@ CMRR_CHECK = Check(
     applies=lambda s: s.requirement.topology == "difference")
 
 
-__all__ = ["CMRR_CHECK", "Rejection", "need_db", "rejection", "vcm_budget", "vcm_span"]
+__all__ = ["CMRR_CHECK", "Rejection", "need_db", "rejection", "stage_db", "vcm_budget",
+           "vcm_span"]
