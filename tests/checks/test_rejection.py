@@ -186,6 +186,7 @@ def _part_db_for(s: Spec, stage_db: float) -> float:
         mid = (lo + hi) / 2
         got = -20 * math.log10(sympy_inverse_cmrr(s, 10 ** (-mid / 20)))
         lo, hi = (lo, mid) if got > stage_db else (mid, hi)
+    assert 21 < lo and hi < 199, "the case leaves the part no room"
     return (lo + hi) / 2
 
 
