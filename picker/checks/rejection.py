@@ -109,17 +109,22 @@ def _db(inverse: float) -> float:
     return math.inf if inverse <= 0 else -20 * math.log10(inverse)
 
 
+def _rss(rs: float, nominal: dict[str, float], t: float) -> Rejection:
+    """|Acm| + t·√(Σ (∂Acm/∂ln ri)²) at the nominal values (relative steps of 1e-6)."""
+    ad, acm, kcm, ng = (float(v) for v in transfers(rs, nominal))
+    step, total = 1e-6, 0.0
+    for n in NAMES:
+        moved = float(transfers(rs, {**nominal, n: nominal[n] * (1 + step)})[1])
+        total += ((moved - acm) / step) ** 2
+    spread = abs(acm) + t * math.sqrt(total)
+    return Rejection(np.array([spread / ad]), np.array([kcm * ng / ad]), ad, "")
+
+
 @lru_cache(maxsize=64)
 def _rejection(rs: float, res: tuple[float, ...], t: float, rule: str) -> Rejection:
     nominal = dict(zip(NAMES, res, strict=True))
     if rule == "rss" and t > 0:
-        ad, acm, kcm, ng = (float(v) for v in transfers(rs, nominal))
-        step, total = 1e-6, 0.0
-        for n in NAMES:
-            moved = float(transfers(rs, {**nominal, n: nominal[n] * (1 + step)})[1])
-            total += ((moved - acm) / step) ** 2
-        spread = abs(acm) + t * math.sqrt(total)
-        return Rejection(np.array([spread / ad]), np.array([kcm * ng / ad]), ad, "")
+        return _rss(rs, nominal, t)
     net = corners(nominal, t) if t > 0 else {k: np.array([v]) for k, v in nominal.items()}
     ad, acm, kcm, ng = transfers(rs, net)
     a, b = np.abs(acm) / ad, kcm * ng / ad
@@ -127,7 +132,8 @@ def _rejection(rs: float, res: tuple[float, ...], t: float, rule: str) -> Reject
             if not any((a[j] >= a[i]) & (b[j] >= b[i]) & ((a[j] > a[i]) | (b[j] > b[i]))
                        for j in range(len(a)))]
     i = int(np.argmax(a))
-    worst = ", ".join(f"{k} {100 * (net[k][i] / nominal[k] - 1):+.3g}%" for k in NAMES) if t > 0 else ""
+    worst = (", ".join(f"{k} {100 * (net[k][i] / nominal[k] - 1):+.3g}%" for k in NAMES)
+             if t > 0 else "")
     order = np.argsort(-a[keep])
     kept = np.asarray(keep)[order]
     return Rejection(a[kept], b[kept], float(np.max(ad)), worst)
