@@ -138,11 +138,14 @@ class PartReport:
     def to_json(self) -> dict[str, Any]:
         """``picker why --json``: part, spec, verdict and each check's record (SI)."""
         from picker.checks.gain import phase_deg
+        from picker.checks.rejection import stage_db
 
         phase = float(phase_deg(self.parts, self.spec)[0])
-        return {"part": self.part, "spec": self.spec.to_json(), "verdict": self.verdict,
-                "phase_at_f_deg": phase if math.isfinite(phase) else None,
-                "assumed": self.assumed, "checks": self.table.records(0)}
+        out = {"part": self.part, "spec": self.spec.to_json(), "verdict": self.verdict,
+               "phase_at_f_deg": phase if math.isfinite(phase) else None}
+        if "common_mode_rejection" in self.table.results:
+            out["cmrr_db"] = stage_db(self.parts, self.spec)[0]
+        return out | {"assumed": self.assumed, "checks": self.table.records(0)}
 
 
 def why(req: Requirement, part: str, store: Any) -> PartReport:

@@ -98,6 +98,10 @@ def synthetic_columns(n: int, seed: int = 7) -> dict[str, Any]:
         cols[name] = np.where(rng2.random(n) < 0.05, np.nan, _lognormal(rng2, 40.0, 0.8, n))
     cols["ib_double_c"] = np.where(rng2.random(n) < 0.6, np.nan,
                                    by_tech(-80.0, 10.0, 10.0) * rng2.uniform(0.8, 1.2, n))
+    # cmrr_db (schema 0005), from its own stream so the columns above stay as they were
+    rng_cmrr = np.random.default_rng(seed + 13)
+    cols["cmrr_db"] = np.where(rng_cmrr.random(n) < 0.15, np.nan,
+                               rng_cmrr.uniform(60.0, 130.0, n))
     return cols
 
 

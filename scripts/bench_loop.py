@@ -75,6 +75,30 @@ def _spread_error(g: float, budget: Any) -> float:
     return max(abs(g * (1 + budget.tolerance_high) - 1), abs(g * (1 - budget.tolerance_low) - 1))
 
 
+def _cmrr_terms(spec: Any) -> tuple[list[tuple[float, float, float]], float | None]:
+    """(Ad, Acm, kcm·NG) at each tolerance corner, and the need in dB (None: none)."""
+    req, res = spec.requirement, spec.stage.resistors
+    rs, t = req.source_ohm, req.tolerance
+    terms = []
+    for s1 in (-1, 1):
+        for s2 in (-1, 1):
+            for s3 in (-1, 1):
+                for s4 in (-1, 1):
+                    r1, r2 = res["r1"] * (1 + s1 * t), res["r2"] * (1 + s2 * t)
+                    r3, r4 = res["r3"] * (1 + s3 * t), res["r4"] * (1 + s4 * t)
+                    kcm, ng = r4 / (rs + r3 + r4), 1 + r2 / (rs + r1)
+                    acm = kcm * ng - r2 / (rs + r1)
+                    terms.append((kcm * ng / 2 + r2 / (rs + r1) / 2, acm, kcm * ng))
+    needs = [] if req.cmrr_min_db is None else [req.cmrr_min_db]
+    if req.vcm is not None:
+        dv = max(abs(req.vcm[0] - req.ref), abs(req.vcm[1] - req.ref))
+        budget = (req.offset_max_v / req.margin if req.offset_max_v is not None
+                  else 0.5 * req.gain_error / req.margin * req.vout)
+        if dv > 0:
+            needs.append(20 * math.log10(max(a for a, _, _ in terms) * dv / budget))
+    return terms, (max(needs) if needs else None)
+
+
 def check_rows(cols: Mapping[str, list[float]], spec: Any) -> dict[str, list[float]]:
     """Margins per check and part (NaN = unknown), one part at a time."""
     req, st = spec.requirement, spec.stage
@@ -106,6 +130,11 @@ def check_rows(cols: Mapping[str, list[float]], spec: Any) -> dict[str, list[flo
         i_gain2 = st.rf ** 2 + (st.zp * ng) ** 2
     out["stock"] = []
     g = st.amps_per_volt_out
+    cmrr_on = req.topology == "difference"
+    if cmrr_on:  # picker.checks.rejection, written out (worst case over the 16 corners)
+        out = {k: v for k, v in [*list(out.items())[:2], ("common_mode_rejection", []),
+                                 *list(out.items())[2:]]}
+        cmrr_corners, cmrr_need = _cmrr_terms(spec)
     for i in range(n):
         row = {k: v[i] for k, v in cols.items()}
         sides = []
@@ -120,9 +149,22 @@ def check_rows(cols: Mapping[str, list[float]], spec: Any) -> dict[str, list[flo
                 m = nan
             sides.append(m)
         out["swing"].append(_worse(*sides))
+        mid = (lo + hi) / 2  # distances from the middle of the inputs' excursion
         out["common_mode"].append(_worse(
-            _at_least(hi - req.ref, req.rail_pos - row["cm_head_pos_v"] - req.ref),
-            _at_least(req.ref - lo, req.ref - (req.rail_neg + row["cm_head_neg_v"]))))
+            _at_least(hi - mid, req.rail_pos - row["cm_head_pos_v"] - mid),
+            _at_least(mid - lo, mid - (req.rail_neg + row["cm_head_neg_v"]))))
+        if cmrr_on:
+            op = row["cmrr_db"]
+            x = 0.0 if math.isnan(op) else 10 ** (-op / 20)
+            worst = max((abs(acm) + p * x) / ad for ad, acm, p in cmrr_corners)
+            has = math.inf if worst == 0 else -20 * math.log10(worst)
+            if cmrr_need is None:
+                m = math.inf
+            else:
+                m = 10 ** ((has - cmrr_need) / 20)
+                if math.isnan(op) and m >= 1:
+                    m = nan
+            out["common_mode_rejection"].append(m)
         out["slew"].append(_at_least(slew_need, row["slew_v_per_s"]))
         a0, gbw = row["aol_v_per_v"], row["gbw_hz"]
         n0, n1, d0, d1 = _loop(st, row["rin_ohm"], row["rout_ohm"])

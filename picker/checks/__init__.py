@@ -108,9 +108,9 @@ class Check:
 
 
 def _registry() -> tuple[Check, ...]:
-    from picker.checks import accuracy, gain, limits
+    from picker.checks import accuracy, gain, limits, rejection
 
-    return (limits.SWING, limits.COMMON_MODE, limits.SLEW, gain.GAIN_ACCURACY,
+    return (limits.SWING, limits.COMMON_MODE, rejection.CMRR_CHECK, limits.SLEW, gain.GAIN_ACCURACY,
             gain.PHASE, limits.OUTPUT_CURRENT, limits.SUPPLY, accuracy.OFFSET, accuracy.NOISE,
             limits.STOCK)
 

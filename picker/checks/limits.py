@@ -20,6 +20,7 @@ from picker.checks.core import ASSUMED, Array, CheckResult, Coded, Parts, result
 from picker.circuit.output import reach
 from picker.design.spec import Explained
 from picker.quantities import fmt
+from picker.stages.difference import input_impedances
 
 if TYPE_CHECKING:
     from picker.design.spec import Spec
@@ -129,40 +130,76 @@ SWING = Check(
 
 # -- common mode -------------------------------------------------------------------------
 
+def _cm_centre(s: Spec) -> float:
+    """The middle of the inputs' excursion, V: the reference, except for a difference
+    stage whose --vcm moves it (the distances on each side are measured from here)."""
+    return (s.minimum.cm_low_v + s.minimum.cm_high_v) / 2
+
+
 def _common_mode(p: Parts, s: Spec) -> CheckResult:
-    """Inputs reach ref ± |kp|·Vp,in; the part's common-mode range, per side."""
-    req = s.requirement
-    up = result("common_mode", "voltage", ">=", s.minimum.cm_high_v - req.ref,
-                (req.rail_pos - req.ref) - p["cm_head_pos_v"], note="toward V+")
-    down = result("common_mode", "voltage", ">=", req.ref - s.minimum.cm_low_v,
-                  (req.ref - req.rail_neg) - p["cm_head_neg_v"], note="toward V-")
+    """The inputs' levels (Minimums.cm_low_v .. cm_high_v) inside the part's
+    common-mode range, per side, as distances from the middle of the excursion."""
+    req, c = s.requirement, _cm_centre(s)
+    up = result("common_mode", "voltage", ">=", s.minimum.cm_high_v - c,
+                (req.rail_pos - c) - p["cm_head_pos_v"], note="toward V+")
+    down = result("common_mode", "voltage", ">=", c - s.minimum.cm_low_v,
+                  (c - req.rail_neg) - p["cm_head_neg_v"], note="toward V-")
     return worse(up, down)
 
 
 def _cm_explain(s: Spec) -> list[Explained]:
-    req, st = s.requirement, s.stage
-    kp = st.cm_per_volt
-    return [Explained(
-        "common_mode", "input common-mode excursion, each side of the reference",
-        kp * req.vin, "voltage", COMMON_MODE.formula,
-        f"{kp:.4g} × {_v(req.vin)} = {_v(kp * req.vin)} (inputs at {_v(s.minimum.cm_low_v)} "
-        f".. {_v(s.minimum.cm_high_v)})")]
+    req, st, c = s.requirement, s.stage, _cm_centre(s)
+    lo, hi = s.common_mode
+    levels = f"inputs at {_v(lo)} .. {_v(hi)}"
+    if req.topology != "difference":
+        kp = st.cm_per_volt
+        return [Explained(
+            "common_mode", "input common-mode excursion, each side of the reference",
+            kp * req.vin, "voltage", COMMON_MODE.formula,
+            f"{kp:.4g} × {_v(req.vin)} = {_v(kp * req.vin)} ({levels})")]
+    vcm = req.vcm if req.vcm is not None else (req.ref, req.ref)
+    rs, r = req.source_ohm, st.resistors
+    k = r["r4"] / (rs + r["r3"] + r["r4"])
+    z = input_impedances(r)
+    ohm = {n: fmt(v, "resistance", 4) for n, v in z.items()}
+    return [
+        Explained(
+            "common_mode", "input excursion each side of its middle", hi - c, "voltage",
+            COMMON_MODE.formula,
+            f"({_v(hi)} - ({_v(lo)})) / 2 = {_v(hi - c)} (inputs from {_v(lo)} to {_v(hi)}, "
+            f"middle {_v(c)}: vp = ref + k·(Vcm - ref ± Vp,in/2), ref {_v(req.ref)}, Vcm "
+            f"{_v(vcm[0])} .. {_v(vcm[1])}"
+            + ("" if req.vcm is not None else " (no --vcm: the reference)")
+            + f", Vp,in {_v(req.vin)}, k = r4/(Rs + r3 + r4) = {k:.5g} nominal, at r3, r4 "
+            f"±{fmt(req.tolerance, 'ratio')} its extremes)"),
+        Explained(
+            "input_impedance", "input impedance of each input (ideal op-amp)", z["plus"],
+            "resistance",
+            "+ input: r3 + r4 (either mode); - input: r1/(1 + k) balanced differential, "
+            "r1/(1 - k) common mode, k = r4/(r3 + r4); floating source: r1 + r3",
+            f"+ {ohm['plus']}; - {ohm['minus_diff']} differential, {ohm['minus_cm']} common "
+            f"mode; floating {ohm['floating']}"),
+    ]
 
 
 def _cm_detail(s: Spec, p: Parts, i: int) -> str:
-    req = s.requirement
+    req, c = s.requirement, _cm_centre(s)
     hp, hn = float(p["cm_head_pos_v"][i]), float(p["cm_head_neg_v"][i])
-    return (f"toward V+ ({_v(req.rail_pos)} - {_v(hp)}) - {_v(req.ref)} = "
-            f"{_v(req.rail_pos - hp - req.ref)}; toward V- {_v(req.ref)} - ({_v(req.rail_neg)} "
-            f"+ {_v(hn)}) = {_v(req.ref - req.rail_neg - hn)}")
+    return (f"toward V+ ({_v(req.rail_pos)} - {_v(hp)}) - {_v(c)} = "
+            f"{_v(req.rail_pos - hp - c)}; toward V- {_v(c)} - ({_v(req.rail_neg)} "
+            f"+ {_v(hn)}) = {_v(c - req.rail_neg - hn)}")
 
 
 COMMON_MODE = Check(
     name="common_mode", kind="voltage", reads=("cm_head_pos_v", "cm_head_neg_v"),
     run=_common_mode,
-    formula="each side (V+ - cm head+) - ref and ref - (V- + cm head-) >= need = |kp|·Vp,in "
-            "(the inputs follow the non-inverting input)",
-    explain=_cm_explain, detail=_cm_detail, amplitude="proportional")
+    formula="each side (V+ - cm head+) - c and c - (V- + cm head-) >= need, the inputs' "
+            "excursion from its middle c (= ref and |kp|·Vp,in: the inputs follow the "
+            "non-inverting input; difference stage: vp = ref + k·(Vcm - ref ± Vp,in/2), "
+            "k = r4/(Rs + r3 + r4) at its tolerance extremes, both ends of --vcm)",
+    explain=_cm_explain, detail=_cm_detail,
+    # with --vcm the levels' middle moves with the common mode, not with the amplitude
+    amplitude=lambda s: "other" if s.requirement.vcm is not None else "proportional")
 
 
 # -- slew --------------------------------------------------------------------------------

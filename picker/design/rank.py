@@ -84,6 +84,20 @@ class Selection:
         ph = phase_deg(self.parts.take(np.asarray(rows, dtype=np.intp)), self.spec)
         return [None if not np.isfinite(x) else float(x) for x in ph.tolist()]
 
+    @property
+    def shows_cmrr(self) -> bool:
+        """Whether the stage has a common-mode rejection figure (a difference stage)."""
+        return "common_mode_rejection" in self.table.results
+
+    def cmrr(self, rows: Sequence[int]) -> list[float | None]:
+        """The stage's worst-case CMRR with each row's part, dB (None: unknown),
+        picker.checks.rejection; computed for these rows only."""
+        from picker.checks.rejection import stage_db
+
+        if not len(rows):
+            return []
+        return stage_db(self.parts.take(np.asarray(rows, dtype=np.intp)), self.spec)
+
     def to_json(self, listed: int | None = None) -> dict[str, Any]:
         """The JSON shape of ``picker pick --json`` (SI base units).
 
@@ -104,11 +118,15 @@ class Selection:
                 chunk = list(entries[start:start + 1000])
                 rows = [e.row for e in chunk]
                 phases = self.phases(rows)
-                for e, checks, ph in zip(chunk, t.records_for(rows), phases, strict=True):
+                cmrr = self.cmrr(rows) if self.shows_cmrr else [None] * len(rows)
+                for e, checks, ph, cm in zip(chunk, t.records_for(rows), phases, cmrr,
+                                             strict=True):
                     item: dict[str, Any] = {"part": e.part}
                     if extra is not None:
                         item[extra] = list(getattr(e, extra))
                     item["phase_at_f_deg"] = ph
+                    if self.shows_cmrr:
+                        item["cmrr_db"] = cm
                     if self.assumed:
                         item["assumed"] = self.assumed_for(e.row)
                     item["checks"] = checks

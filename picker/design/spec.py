@@ -36,7 +36,7 @@ from typing import Any
 
 from picker.design.requirement import Requirement
 from picker.quantities import Kind, fmt
-from picker.stages import Stage, stage
+from picker.stages import Stage, kind, stage
 
 DC_SHARE = 0.2  # of the op-amp's gain-error allowance, spent at DC
 RIN_SHARE = 0.2  # of the DC share, left to the input resistance (when it matters)
@@ -166,7 +166,6 @@ def tolerance_spread(req: Requirement, st: Stage) -> tuple[float, float]:
     independent tolerances, first order; common practice, no source).
     """
     from picker.design.tolerance import worst_case
-    from picker.stages import kind
 
     t = req.tolerance
     nominal = abs(st.ideal_gain)
@@ -247,11 +246,11 @@ def minimum_specs(req: Requirement) -> Spec:
     st = stage(req)
     m, f, vp, ref = req.margin, req.freq_hz, req.vout, req.ref
     budget, a0, rin, gbw = _split(req, st)
-    vcm = st.cm_per_volt * req.vin
+    cm_low, cm_high = kind(req.topology).input_levels(req, st)
     minimum = Minimums(
         slew_v_per_s=2 * math.pi * f * vp * m, gbw_hz=gbw, aol_v_per_v=a0, rin_ohm=rin,
         swing_pos_v=ref + vp, swing_neg_v=ref - vp,  # not scaled by m (module docstring)
-        cm_low_v=ref - vcm, cm_high_v=ref + vcm,
+        cm_low_v=cm_low, cm_high_v=cm_high,
         iout_a=m * vp * st.amps_per_volt_out, supply_span_v=req.span)
     notes = [f"design margin {m:g}: amounts x{m:g}, allowed errors /{m:g} "
              "(swing and common-mode range are checked at the stated amplitude)",

@@ -147,10 +147,12 @@ def pick_text(sel: Selection, max_listed: int | None = None) -> str:
         rows = []
         listed = list(sel.accepted)[:max_listed]
         phases = sel.phases([e.row for e in listed])
+        cmrr = sel.cmrr([e.row for e in listed]) if sel.shows_cmrr else None
         for k, (e, ph) in enumerate(zip(listed, phases, strict=True), 1):
             price = parts["price"][e.row]
             rows.append([k, e.part, f"{e.margin:.3g}" if math.isfinite(e.margin) else "-",
                          t.limiting(e.row), fmt(ph, "angle"),
+                         *([] if cmrr is None else [fmt(cmrr[k - 1], "decibel", 3)]),
                          "-" if math.isnan(price) else f"{price:.2f}",
                          _count(parts["qty"][e.row]), _count(parts["channels"][e.row])])
         shown = (f"{len(listed)}" if len(listed) == sel.accepted_total
@@ -159,6 +161,7 @@ def pick_text(sel: Selection, max_listed: int | None = None) -> str:
         marks = [(e.part, sel.assumed_for(e.row)) for e in listed] if sel.assumed else []
         marks = [(p, a) for p, a in marks if a]
         lines.append(tabulate(rows, headers=["#", "part", "margin", "limited by", "phase at f",
+                                             *(["CMRR"] if cmrr is not None else []),
                                              "price",
                                              "qty", "ch"], disable_numparse=True))
         for part, a in marks:

@@ -167,5 +167,12 @@ class StageType(ABC):
         fa, fb = self.pair_names
         return {fa: a, fb: b}
 
+    def input_levels(self, req: Requirement, st: Stage) -> tuple[float, float]:
+        """Lowest and highest level the op-amp's inputs reach, V: the non-inverting
+        input follows ``ref ± |kp|·Vp,in`` (a stage type with its own common-mode input
+        overrides this)."""
+        swing = st.cm_per_volt * req.vin
+        return req.ref - swing, req.ref + swing
+
 
 __all__ = ["Array", "Stage", "StageType", "parallel", "reduced_netlist"]

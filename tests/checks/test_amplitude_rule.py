@@ -25,6 +25,8 @@ STAGES = [
          phase_error="5deg"),
     dict(topology="difference", gain=2, vout="1V", freq="1kHz", rails="±15",
          gain_error="0.5%"),
+    dict(topology="difference", gain=10, vout="1V", freq="1kHz", rails="±15",
+         cmrr="60dB", tolerance="0.1%", offset_max="10mV"),
 ]
 
 

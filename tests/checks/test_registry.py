@@ -30,6 +30,9 @@ STAGES = [
      "--noise-max", "100uV", "--margin", "1.5"],
     ["--topology", "difference", "--gain", "2", "--vin", "1V", "--freq", "1kHz",
      "--rails", "±15", "--gain-error", "0.5%"],
+    ["--topology", "difference", "--gain", "10", "--vin", "0.2V", "--freq", "1kHz",
+     "--rails", "±15", "--gain-error", "2%", "--tolerance", "0.1%", "--vcm", "-3..6V",
+     "--cmrr", "50dB", "--offset-max", "200mV", "--source", "50"],
 ]
 PARTS = ["bip-gp-a", "bip-ss-b"]  # one fully described, one with blanks
 
@@ -44,7 +47,7 @@ def _si(token: str) -> float:
     return float(Quantity(token.replace("µ", "u")))
 
 
-_VALUE = re.compile(r"(\d+(?:\.\d+)?(?:e[-+]?\d+)?)(?:\s?([kMGmunpµ]?(?:Hz|V/µs|V|A|Ω)|%))?")
+_VALUE = re.compile(r"(\d+(?:\.\d+)?(?:e[-+]?\d+)?)(?:\s?([kMGmunpµ]?(?:Hz|V/µs|V|A|Ω|dB)|%))?")
 
 
 def evaluate(expr: str) -> float:
@@ -54,10 +57,11 @@ def evaluate(expr: str) -> float:
         return repr(_si(number + (" " + unit if unit and unit != "%" else unit or "")))
 
     text = expr.replace("∞", "inf").replace("√", "sqrt").replace("²", "**2").replace("×", "*")
+    text = text.replace("log10(", "lg(")
     text = re.sub(r"(\d)π", r"\1*pi", text)
     text = _VALUE.sub(value, text)
     return float(eval(text, {"__builtins__": {}}, {"pi": math.pi, "sqrt": math.sqrt,
-                                                  "inf": math.inf}))
+                                                  "lg": math.log10, "inf": math.inf}))
 
 
 def _need_and_numbers(numbers: str) -> tuple[float, float]:

@@ -46,6 +46,8 @@ STAGES: list[dict[str, Any]] = [
      "load": "10k", "source": "100", "offset-max": "20mV", "noise-max": "300uV", "qty": "2"},
     {"tolerance": "0", "topology": "difference", "gain": "2", "vin": "1V", "freq": "1kHz", "rails": "±15",
      "offset-max": "5mV", "temp": "-40..85C", "margin": "1"},
+    {"tolerance": "0.1%", "topology": "difference", "gain": "10", "vin": "0.2V", "freq": "5kHz",
+     "rails": "±15", "vcm": "-2..7V", "cmrr": "66dB", "offset-max": "100mV"},
     {"tolerance": "0", "topology": "follower", "vin": "1V", "freq": "100kHz", "rails": "±5",
      "noise-max": "100uV", "gain-error": "0.1%"},
     {"tolerance": "0", "topology": "non-inverting", "gain": "100", "vin": "50mV", "freq": "50kHz",
