@@ -108,10 +108,12 @@ class Check:
 
 
 def _registry() -> tuple[Check, ...]:
-    from picker.checks import accuracy, gain, limits
+    from picker.checks import accuracy, gain, limits, protection, thermal
 
     return (limits.SWING, limits.COMMON_MODE, limits.SLEW, gain.GAIN_ACCURACY,
-            gain.PHASE, limits.OUTPUT_CURRENT, limits.SUPPLY, accuracy.OFFSET, accuracy.NOISE,
+            gain.PHASE, limits.OUTPUT_CURRENT, limits.SUPPLY,
+            thermal.DISSIPATION, protection.INPUT_PROTECTION,
+            accuracy.OFFSET, accuracy.NOISE,
             limits.STOCK)
 
 
