@@ -91,18 +91,21 @@ def _detail(s: Spec, p: Parts, i: int) -> str:
     if math.isnan(vmax) or vmax >= v:
         return text
     r = series_for_clamp(s, vmax)
+    path = path_resistance(s.stage)
+    limit = fmt(CLAMP_CURRENT_A, "current")
+    if r == 0:
+        return (text + f"; the {fmt(path, 'resistance', 4)} between the inputs already "
+                f"limits the clamp current to {fmt((v - vmax) / path, 'current', 4)} "
+                f"(<= {limit}, common practice, no source)")
     four_kt = 4 * BOLTZMANN * s.requirement.temp_max_k
-    total = (v - vmax) / CLAMP_CURRENT_A
     en = math.sqrt(four_kt * r)
-    return (text + f"; to limit the clamp current to {fmt(CLAMP_CURRENT_A, 'current')} "
-            f"(common practice, no source) the path between the inputs needs "
-            f"({fmt(v, 'voltage', 4)} - {fmt(vmax, 'voltage', 4)}) / "
-            f"{fmt(CLAMP_CURRENT_A, 'current')} = {fmt(total, 'resistance', 4)}: add "
+    return (text + f"; to limit the clamp current to {limit} (common practice, no source) "
+            f"the path between the inputs needs ({fmt(v, 'voltage', 4)} - "
+            f"{fmt(vmax, 'voltage', 4)}) / {limit} = "
+            f"{fmt((v - vmax) / CLAMP_CURRENT_A, 'resistance', 4)}: add "
             f"{fmt(r, 'resistance', 4)} in series with an input (it has "
-            f"{fmt(path_resistance(s.stage), 'resistance', 4)}), costing √(4kT·R) = "
-            f"{fmt(en, 'vnoise', 3)} at the input, {fmt(en * s.noise_gain, 'vnoise', 3)} "
-            f"at the output")
-
+            f"{fmt(path, 'resistance', 4)}), costing √(4kT·R) = {fmt(en, 'vnoise', 3)} at "
+            f"the input, {fmt(en * s.noise_gain, 'vnoise', 3)} at the output")
 
 INPUT_PROTECTION = Check(
     name="input_protection", kind="voltage", reads=("vdiff_max_v",), run=_run,
