@@ -38,7 +38,7 @@ STAGES = {
 
 
 def nodal(req: Requirement, vin: sp.Expr, vo: sp.Expr | None,
-          extra_p: sp.Expr = sp.S(0)) -> tuple[sp.Expr, sp.Expr, sp.Expr]:
+          extra_p: sp.Expr | float = 0.0) -> tuple[sp.Expr, sp.Expr, sp.Expr]:
     """(vp, vn, vo) of the stage's own circuit by nodal analysis (sympy): inputs draw no
     current; the output either held at ``vo`` or, when None, set by an ideal op-amp
     (the voltage at the op-amp's + pin, ``vp + extra_p``, equal to vn). ``extra_p`` is
