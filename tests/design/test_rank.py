@@ -116,7 +116,8 @@ def test_parts_with_nothing_recorded_are_unverified_not_passed() -> None:
     sel = select(bare, req)
     assert sel.accepted == [] and sel.rejected == []
     assert sel.unverified[0].unknown == ["swing", "common_mode", "slew", "gain_accuracy",
-                                         "output_current", "supply", "offset", "noise"]
+                                         "output_current", "supply", "dissipation",
+                                         "input_protection", "offset", "noise"]
     assert by_name("offset").needed(sel.spec) == ("vos_v", "ib_a", "ios_a")  # no drift at 25 °C
     empty = select(PARTS.iloc[:0], REQ)
     assert (empty.accepted, empty.rejected, empty.unverified, empty.nearest) == ([], [], [], [])
