@@ -170,5 +170,5 @@ def test_against_ngspice_class_b(case: tuple[float, ...], tmp_path: Path) -> Non
     vpos, vneg, ref, vp, r = case
     supplied, load = _ngspice_power(vpos, vneg, ref, vp, r, tmp_path)
     # reference: ngspice .tran, supply power minus load power = output-stage dissipation
-    assert_allclose(load, vp**2 / (2 * r), rtol=1e-3)
-    assert_allclose(output_stage_power(vpos - vneg, vp, 1 / r), supplied - load, rtol=2e-3)
+    assert_allclose(load, vp**2 / (2 * r), rtol=1e-5)
+    assert_allclose(output_stage_power(vpos - vneg, vp, 1 / r), supplied - load, rtol=1e-5)
