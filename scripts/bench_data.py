@@ -102,6 +102,15 @@ def synthetic_columns(n: int, seed: int = 7) -> dict[str, Any]:
     rng_cmrr = np.random.default_rng(seed + 13)
     cols["cmrr_db"] = np.where(rng_cmrr.random(n) < 0.15, np.nan,
                                rng_cmrr.uniform(60.0, 130.0, n))
+    # heat, input protection and supply rejection (schema 0005), their own stream again
+    rng3 = np.random.default_rng(seed + 2)
+    cols["theta_ja_c_per_w"] = np.where(rng3.random(n) < 0.05, np.nan,
+                                        rng3.choice([55.0, 100.0, 150.0, 210.0], n))
+    cols["tj_max_c"] = np.where(rng3.random(n) < 0.05, np.nan,
+                                rng3.choice([125.0, 150.0], n, p=[0.3, 0.7]))
+    cols["vdiff_max_v"] = np.where(rng3.random(n) < 0.05, np.nan,
+                                   np.where(rng3.random(n) < 0.2, 0.7, supply_max))
+    cols["psrr_db"] = np.where(rng3.random(n) < 0.1, np.nan, rng3.uniform(60.0, 130.0, n))
     return cols
 
 

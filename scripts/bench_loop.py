@@ -116,7 +116,15 @@ def check_rows(cols: Mapping[str, list[float]], spec: Any) -> dict[str, list[flo
     f = req.freq_hz
     offset_on, noise_on = req.offset_max_v is not None, req.noise_max_v is not None
     out: dict[str, list[float]] = {k: [] for k in ("swing", "common_mode", "slew", "gain_accuracy",
-                                                   "output_current", "supply")}
+                                                   "output_current", "supply", "dissipation",
+                                                   "input_protection")}
+    # dissipation: class-B-like output stage (picker.checks.thermal)
+    vp, ta = req.vout, req.temp_max_c
+    p_out = max(0.0, st.amps_per_volt_out * (span * vp / math.pi - vp * vp / 2))
+    # input protection: a 2·Vp,in step with the output held (picker.checks.protection)
+    to_n = 0.0 if math.isinf(st.rg) or st.rg + st.rf == 0 else st.kg * st.rf / (st.rg + st.rf)
+    step_need = 2 * req.vin * abs(st.kp - to_n)
+    ripple = None if req.ripple is None else req.ripple[0] * ng
     if offset_on:
         out["offset"] = []
         off_need = req.offset_max_v / req.margin
@@ -190,6 +198,25 @@ def check_rows(cols: Mapping[str, list[float]], spec: Any) -> dict[str, list[flo
                                      else _at_least(amps_need, row["iout_a"]))
         out["supply"].append(_worse(_at_least(span, row["supply_max_v"]),
                                     _at_most(span, row["supply_min_v"])))
+        ch, iq = row["channels"], row["iq_a"]
+        theta, tjmax = row["theta_ja_c_per_w"], row["tj_max_c"]
+        chn = 1.0 if math.isnan(ch) else ch
+        power = (0.0 if math.isnan(iq) else iq) * span * chn + min(chn, req.qty) * p_out
+        rise = (0.0 if math.isnan(theta) else theta) * power
+        allowed = tjmax - ta
+        if math.isnan(allowed):
+            m = nan
+        elif rise > 0:
+            m = allowed / rise
+        else:
+            m = math.inf if allowed >= 0 else -math.inf
+        if any(math.isnan(x) for x in (ch, iq, theta)) and not m < 1:
+            m = nan
+        out["dissipation"].append(m)
+        out["input_protection"].append(_at_least(step_need, row["vdiff_max_v"]))
+        psrr = row.get("psrr_db", nan)
+        rip = 0.0 if ripple is None or math.isnan(psrr) else ripple * 10 ** (-psrr / 20)
+        rip_unknown = ripple is not None and math.isnan(psrr)
         if offset_on:
             unknown = False
             t2 = row.get("ib_double_c", nan)
@@ -209,7 +236,8 @@ def check_rows(cols: Mapping[str, list[float]], spec: Any) -> dict[str, list[flo
                     else:
                         total += c * abs(x)
                 totals.append(total)
-            total = max(totals)
+            total = max(totals) + rip
+            unknown = unknown or rip_unknown
             out["offset"].append(_at_most(off_need, nan if unknown and total <= off_need
                                           else total))
         if noise_on:
@@ -228,6 +256,8 @@ def check_rows(cols: Mapping[str, list[float]], spec: Any) -> dict[str, list[flo
                 unknown, total = True, 0.0
             else:
                 total = math.sqrt((known2 + r_density2) * enbw)
+            total = math.sqrt(total * total + rip * rip / 2)
+            unknown = unknown or rip_unknown
             out["noise"].append(_at_most(noise_need, nan if unknown and total <= noise_need
                                          else total))
         qty, ch = row["qty"], row["channels"]

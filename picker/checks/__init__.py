@@ -108,10 +108,12 @@ class Check:
 
 
 def _registry() -> tuple[Check, ...]:
-    from picker.checks import accuracy, gain, limits, rejection
+    from picker.checks import accuracy, gain, limits, protection, rejection, thermal
 
-    return (limits.SWING, limits.COMMON_MODE, rejection.CMRR_CHECK, limits.SLEW, gain.GAIN_ACCURACY,
-            gain.PHASE, limits.OUTPUT_CURRENT, limits.SUPPLY, accuracy.OFFSET, accuracy.NOISE,
+    return (limits.SWING, limits.COMMON_MODE, rejection.CMRR_CHECK, limits.SLEW,
+            gain.GAIN_ACCURACY, gain.PHASE, limits.OUTPUT_CURRENT, limits.SUPPLY,
+            thermal.DISSIPATION, protection.INPUT_PROTECTION,
+            accuracy.OFFSET, accuracy.NOISE,
             limits.STOCK)
 
 

@@ -19,6 +19,14 @@ noise (white densities at the output, added in power; same text, ch. 7):
 integrated over the closed loop's noise bandwidth π/2·f_cl (single pole, f_cl the
 closed-loop pole of the exact loop); k = 1.380649e-23 J/K (exact, SI 2019, CODATA),
 T the hottest ambient. The load and Ro add nothing worth counting.
+
+rail ripple (``--ripple``, peak Vr at f_r): taken as an input-referred source through
+the part's DC power-supply rejection, so at the output ``Vr·10^(-PSRR/20)·NG`` (peak).
+It adds to the offset as a peak and to the noise as an RMS, ``peak/√2``, in power
+(a sine uncorrelated with the noise). The one PSRR figure is used as the datasheet
+gives it; the model leaves out PSRR's roll-off with frequency (it is the DC figure at
+f_r, optimistic at high ripple frequencies). With ripple given, offset and noise need
+``psrr_db``; an unknown PSRR adds nothing to the lower bound that decides a failure.
 """
 
 from __future__ import annotations
@@ -66,6 +74,56 @@ def _sum_known(terms: list[tuple[float, Array]], n: int) -> Array:
             np.fmax(scratch, 0.0, out=scratch)  # NaN (unknown) -> 0
             total += scratch
     return total
+
+
+def ripple_out(p: Parts, s: Spec) -> Array:
+    """Rail ripple at the output per part, V peak: Vr·10^(-PSRR/20)·NG (module
+    docstring); 0 without ``--ripple`` or where PSRR is unknown (a lower bound)."""
+    if s.requirement.ripple is None:
+        return np.zeros(len(p))
+    vr = s.requirement.ripple[0]
+    with np.errstate(over="ignore"):
+        out = vr * s.noise_gain * np.power(10.0, -p["psrr_db"] / 20)
+    return np.nan_to_num(out, nan=0.0)  # type: ignore[no-any-return]
+
+
+#: What the ripple model leaves out, printed with every ripple term.
+RIPPLE_LEAVES_OUT = "model leaves out: PSRR's roll-off with frequency (the DC figure is used)"
+
+
+def _ripple_explain(s: Spec, what: str) -> list[Explained]:
+    """The ripple row of offset or noise (none without --ripple)."""
+    if s.requirement.ripple is None:
+        return []
+    vr, f_r = s.requirement.ripple
+    peak = vr * s.noise_gain
+    scale, unit = (1.0, "peak") if what == "offset" else (1 / math.sqrt(2), "RMS")
+    return [Explained(
+        f"{what}_ripple", f"rail ripple at the output before PSRR ({unit})", peak * scale,
+        "voltage", "Vr·10^(-PSRR/20)·NG" + (" (peak, added)" if what == "offset"
+                                            else "/√2 (RMS, added in power)"),
+        f"{fmt(vr, 'voltage', 4)} × {s.noise_gain:.4g}"
+        + ("" if what == "offset" else " / √2")
+        + f" = {fmt(peak * scale, 'voltage', 4)} at {fmt(f_r, 'frequency')}, times "
+        f"10^(-PSRR/20) per part; {RIPPLE_LEAVES_OUT}")]
+
+
+def _ripple_detail(s: Spec, p: Parts, rms: bool) -> str:
+    """The part's ripple term (one part), or '' without --ripple."""
+    if s.requirement.ripple is None:
+        return ""
+    vr = s.requirement.ripple[0]
+    psrr = float(p["psrr_db"][0])
+    if math.isnan(psrr):
+        return "; ripple unknown (no PSRR)"
+    out = float(ripple_out(p, s)[0]) / (math.sqrt(2) if rms else 1.0)
+    return (f"; ripple {fmt(vr, 'voltage', 4)} × 10^(-{psrr:g}/20) × NG {s.noise_gain:.4g}"
+            + (" / √2" if rms else "") + f" = {fmt(out, 'voltage', 4)}"
+            + (" RMS" if rms else " peak") + f" ({RIPPLE_LEAVES_OUT})")
+
+
+def _ripple_needs(s: Spec) -> tuple[str, ...]:
+    return ("psrr_db",) if s.requirement.ripple is not None else ()
 
 
 def _offset_coefs(s: Spec) -> dict[str, float]:
@@ -137,6 +195,8 @@ def _offset(p: Parts, s: Spec) -> CheckResult:
     assert s.requirement.offset_max_v is not None
     ends = _offset_ends(p, s)
     total = ends[0] if len(ends) == 1 else np.maximum(ends[0], ends[1])
+    ripple = ripple_out(p, s)
+    total = total + ripple
     note: Coded | str = ""
     missing = np.zeros(len(p), dtype=bool)
     if _warm(s):
@@ -153,11 +213,13 @@ def _offset(p: Parts, s: Spec) -> CheckResult:
         note = Coded(codes, words)
     r = result("offset", "voltage", "<=", s.requirement.offset_max_v / s.margin, total,
                note=note)
+    if s.requirement.ripple is not None:
+        r = r.with_figures(ripple_v=ripple)
     return unknown_unless_failing(r, missing)
 
 
 def _offset_needs(s: Spec) -> tuple[str, ...]:
-    return tuple(f for f, c in _offset_coefs(s).items() if c != 0)
+    return tuple(f for f, c in _offset_coefs(s).items() if c != 0) + _ripple_needs(s)
 
 
 def _limit_explain(name: str, title: str, limit: float | None, m: float,
@@ -179,7 +241,7 @@ def _offset_explain(s: Spec) -> list[Explained]:
         "Ib(T) = Ib(25 °C)·2^((T - 25 °C)/T2), the same for Ios; T2 = ib_double_c, or the "
         "input technology's default (printed as assumed)",
         f"evaluated at {ends}; defaults by tech: {defaults}"))
-    return rows
+    return rows + _ripple_explain(s, "offset")
 
 
 def _offset_detail(s: Spec, p: Parts, i: int) -> str:
@@ -206,15 +268,17 @@ def _offset_detail(s: Spec, p: Parts, i: int) -> str:
         else:
             text += (f"; Ib, Ios x{k:.4g} at {worst:g} °C (x2 every {t2:g} °C"
                      + (", assumed: the input technology's default)" if assumed else ")"))
-    return text
+    return text + _ripple_detail(s, one, rms=False)
 
 
 OFFSET = Check(
     name="offset", kind="voltage",
-    reads=("vos_v", "drift_v_per_c", "ib_a", "ios_a", "ib_double_c", "ib_tech_double_c"),
+    reads=("vos_v", "drift_v_per_c", "ib_a", "ios_a", "ib_double_c", "ib_tech_double_c",
+           "psrr_db"),
     run=_offset, needs=_offset_needs,
     formula="max over T = both ends of --temp of NG·(|Vos| + |drift|·|T - 25 °C|) + "
-            "(|Ib|·|rf - zp·NG| + Ios/2·(rf + zp·NG))·2^((T - 25 °C)/T2) <= offset max/m",
+            "(|Ib|·|rf - zp·NG| + Ios/2·(rf + zp·NG))·2^((T - 25 °C)/T2) "
+            "+ Vr·10^(-PSRR/20)·NG (rail ripple, peak; with --ripple) <= offset max/m",
     explain=_offset_explain, detail=_offset_detail,
     applies=lambda s: s.requirement.offset_max_v is not None, amplitude="independent")
 
@@ -240,18 +304,25 @@ def _noise(p: Parts, s: Spec) -> CheckResult:
     np.fmax(total, 0.0, out=total)  # unknown bandwidth (NaN) -> 0: a lower bound
     total *= density2
     np.sqrt(total, out=total)
-    return result("noise", "voltage", "<=", s.requirement.noise_max_v / s.margin, total)
+    if s.requirement.ripple is None:
+        return result("noise", "voltage", "<=", s.requirement.noise_max_v / s.margin, total)
+    ripple = ripple_out(p, s) / math.sqrt(2)  # RMS of the sine
+    total = np.hypot(total, ripple)
+    return result("noise", "voltage", "<=", s.requirement.noise_max_v / s.margin,
+                  total).with_figures(ripple_v=ripple)
 
 
 def _noise_needs(s: Spec) -> tuple[str, ...]:
     k = _noise_parts(s)
-    return ("en_v_per_rthz",) + (("in_a_per_rthz",) if k["i_gain2"] > 0 else ()) + ("gbw_hz",)
+    return (("en_v_per_rthz",) + (("in_a_per_rthz",) if k["i_gain2"] > 0 else ())
+            + ("gbw_hz",) + _ripple_needs(s))
 
 
 def _noise_explain(s: Spec) -> list[Explained]:
     req = s.requirement
-    return _limit_explain("noise", "allowed output noise (RMS)", req.noise_max_v, s.margin,
-                          NOISE.formula, f" (resistors at {req.temp_max_c:g} °C)")
+    return (_limit_explain("noise", "allowed output noise (RMS)", req.noise_max_v, s.margin,
+                           NOISE.formula, f" (resistors at {req.temp_max_c:g} °C)")
+            + _ripple_explain(s, "noise"))
 
 
 def _noise_detail(s: Spec, p: Parts, i: int) -> str:
@@ -261,17 +332,20 @@ def _noise_detail(s: Spec, p: Parts, i: int) -> str:
     en, cur = float(one["en_v_per_rthz"][0]), float(one["in_a_per_rthz"][0])
     return (f"en·NG {fmt(k['ng'] * en, 'vnoise')}, in {fmt(math.sqrt(k['i_gain2']) * cur, 'vnoise')}"
             f", resistors {fmt(math.sqrt(k['r_density2']), 'vnoise')}; closed-loop pole "
-            f"{fmt(f_cl, 'frequency')}, noise bandwidth {fmt(math.pi / 2 * f_cl, 'frequency')}")
+            f"{fmt(f_cl, 'frequency')}, noise bandwidth {fmt(math.pi / 2 * f_cl, 'frequency')}"
+            + _ripple_detail(s, one, rms=True))
 
 
 NOISE = Check(
     name="noise", kind="voltage",
-    reads=("en_v_per_rthz", "in_a_per_rthz", "aol_v_per_v", "gbw_hz", "rin_ohm", "rout_ohm"),
+    reads=("en_v_per_rthz", "in_a_per_rthz", "aol_v_per_v", "gbw_hz", "rin_ohm", "rout_ohm",
+           "psrr_db"),
     run=_noise, needs=_noise_needs,
     formula="√((en·NG)² + in²·(rf² + (zp·NG)²) + 4kT·(rf + rf²/rg + zp·NG²)) × √(π/2·f_cl) "
-            "<= noise max/m, f_cl the closed-loop pole",
+            "<= noise max/m, f_cl the closed-loop pole; with --ripple added in power to "
+            "Vr·10^(-PSRR/20)·NG/√2",
     explain=_noise_explain, detail=_noise_detail,
     applies=lambda s: s.requirement.noise_max_v is not None, amplitude="independent")
 
 
-__all__ = ["BOLTZMANN", "NOISE", "OFFSET"]
+__all__ = ["BOLTZMANN", "NOISE", "OFFSET", "RIPPLE_LEAVES_OUT", "ripple_out"]

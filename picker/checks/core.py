@@ -10,7 +10,7 @@ check instead of 13 ms for numpy strings); a word is looked up only for a row sh
 from __future__ import annotations
 
 from collections.abc import Callable, Iterator, Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, field, replace
 from functools import cached_property
 from typing import Any, Literal
 
@@ -161,6 +161,9 @@ class CheckResult:
     has: Array
     margin: Array
     note: Coded  # short per-part remark ("" when none)
+    # further per-part figures a record carries besides need and has (e.g. the power a
+    # part dissipates, W): JSON key -> array aligned with the parts (SI units)
+    figures: Mapping[str, Array] = field(default_factory=dict)
 
     @cached_property
     def code(self) -> Codes:
@@ -180,7 +183,12 @@ class CheckResult:
         ``assumed`` when the verdict rests on a stated assumption (see ``assumed``)."""
         out = {"status": self.status(i), "need": _num(self.need[i]),
                "has": _num(self.has[i]), "margin": _num(self.margin[i])}
+        out.update({k: _num(v[i]) for k, v in self.figures.items()})
         return _with_assumed(out, self.note[i])
+
+    def with_figures(self, **figures: Array) -> CheckResult:
+        """This result carrying further per-part figures in its records (``figures``)."""
+        return replace(self, figures={**self.figures, **figures})
 
 
 #: A note of the form ``"...; assumed: WHAT"`` marks a verdict resting on an assumption
@@ -369,10 +377,12 @@ class CheckTable:
         for n, r in self.results.items():
             cols[n] = ([STATUS_WORDS[c] for c in r.code[idx].tolist()],
                        _plain(r.need[idx]), _plain(r.has[idx]), _plain(r.margin[idx]),
-                       [r.note.words[c] for c in r.note.codes[idx].tolist()])
+                       [r.note.words[c] for c in r.note.codes[idx].tolist()],
+                       {f: _plain(v[idx]) for f, v in r.figures.items()})
         return [{n: _with_assumed({"status": st[k], "need": need[k], "has": has[k],
-                                   "margin": m[k]}, note[k])
-                 for n, (st, need, has, m, note) in cols.items()} for k in range(len(idx))]
+                                   "margin": m[k], **{f: v[k] for f, v in fig.items()}},
+                                  note[k])
+                 for n, (st, need, has, m, note, fig) in cols.items()} for k in range(len(idx))]
 
 
 __all__ = ["ASSUMED", "STATUS_WORDS", "Array", "CheckResult", "CheckTable", "Coded", "Parts", "Status",

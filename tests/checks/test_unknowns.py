@@ -46,7 +46,8 @@ def roomy(s: Spec) -> dict[str, float]:
             "supply_min_v": 0.5 * mn.supply_span_v, "supply_max_v": 2 * mn.supply_span_v,
             "vos_v": 1e-6, "drift_v_per_c": 1e-9, "ib_a": 1e-12, "ios_a": 1e-13,
             "en_v_per_rthz": 1e-9, "in_a_per_rthz": 1e-15, "qty": 10.0, "available": 10.0,
-            "channels": 1.0}
+            "channels": 1.0, "iq_a": 1e-3, "theta_ja_c_per_w": 1.0, "tj_max_c": 200.0,
+            "vdiff_max_v": 1e3, "psrr_db": 200.0}
 
 
 @pytest.mark.parametrize("options", STAGES, ids=lambda o: o["topology"])

@@ -16,10 +16,12 @@ from typing import Any
 import numpy as np
 import pandas as pd
 import pytest
+from numpy.testing import assert_allclose
 
 from picker.checks import run_checks
 from picker.design.requirement import Requirement
 from picker.design.spec import Spec, minimum_specs
+from tests.checks.test_thermal import integrated
 
 CASES = tomllib.loads((Path(__file__).parents[1] / "data" / "design_cases.toml").read_text())["case"]
 K_B = 1.380649e-23  # J/K, exact (SI 2019; CODATA 2018)
@@ -41,7 +43,27 @@ def comfortable(s: Spec) -> dict[str, float]:
         "supply_min_v": 0.5 * mn.supply_span_v, "supply_max_v": 2 * mn.supply_span_v,
         "vos_v": 0.0, "drift_v_per_c": 0.0, "ib_a": 0.0, "ios_a": 0.0,
         "en_v_per_rthz": 0.0, "in_a_per_rthz": 0.0, "qty": 1000.0, "channels": 1.0,
+        "iq_a": 1e-3, "theta_ja_c_per_w": 1.0, "tj_max_c": s.requirement.temp_max_c + 100.0,
+        "vdiff_max_v": 10 * s.requirement.vin + 1.0, "psrr_db": 200.0,
     }  # type: ignore[dict-item]
+
+
+def package_power(s: Spec, part: dict[str, float]) -> float:
+    """One channel's power written out: Iq on the rail span plus the output stage's v·i
+    integrated numerically over a period of the sine into R_eff (numpy)."""
+    req = s.requirement
+    g = s.stage.amps_per_volt_out
+    out = integrated(req.rail_pos, req.rail_neg, req.ref, req.vout, 1 / g) if g > 0 else 0.0
+    return part["iq_a"] * req.span + out
+
+
+def input_step(s: Spec) -> float:
+    """The differential input voltage of a 2·Vp,in input step with the output held:
+    the non-inverting input moves by kp per volt, the inverting one by the divider
+    kg·rf/(rg + rf) (nodal analysis of the reduced circuit, any circuits text)."""
+    st = s.stage
+    to_n = 0.0 if math.isinf(st.rg) else st.kg * st.rf / (st.rg + st.rf)
+    return 2 * s.requirement.vin * abs(st.kp - to_n)
 
 
 def output_noise(s: Spec, part: dict[str, float]) -> float:
@@ -76,6 +98,9 @@ def variants(s: Spec, k: float) -> dict[str, dict[str, float]]:
                               "cm_head_neg_v": req.ref - req.rail_neg - k * (req.ref - lo)}
     if mn.iout_a:
         out["output_current"] = {**base, "iout_a": k * mn.iout_a}
+    # Tj = Ta + θ·P at k times the headroom: θ = (Tj,max - Ta)/(k·P) (common practice)
+    out["dissipation"] = {**base, "theta_ja_c_per_w": 100.0 / (k * package_power(s, base))}
+    out["input_protection"] = {**base, "vdiff_max_v": k * input_step(s)}
     out["supply_max"] = {**base, "supply_max_v": k * req.span}
     out["supply_min"] = {**base, "supply_min_v": req.span / k}
     rin = mn.rin_ohm or 1e15
@@ -112,8 +137,8 @@ def test_comfortable_part_passes_everything(case: dict[str, Any]) -> None:
     assert {n: r.status(0) for n, r in table.results.items()} == {n: "pass" for n in table.results}
     rejection = {"common_mode_rejection"} if s.requirement.topology == "difference" else set()
     assert set(table.results) == {"swing", "common_mode", "slew", "gain_accuracy",
-                                  "output_current", "supply", "offset", "noise",
-                                  "stock"} | rejection
+                                  "output_current", "supply", "dissipation",
+                                  "input_protection", "offset", "noise", "stock"} | rejection
 
 
 @pytest.mark.parametrize("case", CASES, ids=[c["name"] for c in CASES])
@@ -144,3 +169,35 @@ def test_stock_counts_channels(case: dict[str, Any]) -> None:
             "four, channels unknown": {**base, "qty": 4.0, "channels": np.nan}}
     table = run_checks(pd.DataFrame(list(rows.values()), index=list(rows)), s)
     assert table.results["stock"].statuses() == ["pass", "fail", "pass", "unknown"]
+
+
+RIPPLE_V = 0.05  # 100 mVpp on the rails
+
+
+@pytest.mark.parametrize("case", CASES, ids=[c["name"] for c in CASES])
+@pytest.mark.parametrize("k,expected", [(1.02, "pass"), (0.98, "fail")], ids=["above", "below"])
+@pytest.mark.parametrize("check", ["offset", "noise"])
+def test_ripple_two_percent_either_side(case: dict[str, Any], k: float, expected: str,
+                                        check: str) -> None:
+    """With --ripple, a PSRR that puts the ripple term (offset: peak, added; noise: RMS =
+    peak/√2, added in power to the resistors' noise) at k times the allowed error; the
+    other limit is left out of the requirement (one PSRR feeds both). Ripple at the
+    output = Vr·10^(-PSRR/20)·NG (input-referred, common practice, no source)."""
+    other = {"offset": "noise_max_v", "noise": "offset_max_v"}[check]
+    req = requirement(case).with_changes(ripple=(RIPPLE_V, 100.0), **{other: None})
+    s = minimum_specs(req)
+    st = s.stage
+    ng = 1 + (0 if math.isinf(st.rg) else st.rf / st.rg)
+    base = comfortable(s)
+    if check == "offset":
+        assert req.offset_max_v is not None
+        rms_or_peak = req.offset_max_v / req.margin / k
+    else:
+        assert req.noise_max_v is not None
+        target = req.noise_max_v / req.margin / k
+        rms_or_peak = math.sqrt(2 * (target**2 - output_noise(s, base) ** 2))
+    part = {**base, "psrr_db": -20 * math.log10(rms_or_peak / (RIPPLE_V * ng))}
+    table = run_checks(pd.DataFrame([part], index=[check]), s)
+    got = {n: str(r.status(0)) for n, r in table.results.items()}
+    assert got == {n: "pass" for n in got} | {check: expected}, f"{check} at {k:g}: {got}"
+    assert_allclose(table.results[check].margin[0], k, rtol=1e-6)

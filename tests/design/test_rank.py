@@ -25,7 +25,8 @@ def part(**changes: float) -> dict[str, float]:
             "rout_ohm": 50.0, "out_head_pos_v": 1.0, "out_head_neg_v": 1.0,
             "out_rsat_pos_ohm": 20.0, "out_rsat_neg_ohm": 20.0,
             "cm_head_pos_v": 1.0, "cm_head_neg_v": 1.0, "iout_a": 0.03, "supply_min_v": 5.0,
-            "supply_max_v": 36.0, "qty": 10.0, "channels": 1.0, "price": 1.0}
+            "supply_max_v": 36.0, "qty": 10.0, "channels": 1.0, "price": 1.0,
+            "iq_a": 1e-3, "theta_ja_c_per_w": 100.0, "tj_max_c": 150.0, "vdiff_max_v": 30.0}
     return {**base, **changes}
 
 
@@ -76,9 +77,10 @@ def test_json_shape() -> None:
     assert set(js["rejected"][0]) == {"part", "fails", "phase_at_f_deg", "checks"}
     checks = js["accepted"][0]["checks"]
     assert list(checks) == ["swing", "common_mode", "slew", "gain_accuracy", "output_current",
-                            "supply", "stock"]
-    for record in checks.values():
-        assert set(record) == {"status", "need", "has", "margin"}
+                            "supply", "dissipation", "input_protection", "stock"]
+    for name, record in checks.items():
+        extra = {"power_w", "tj_c"} if name == "dissipation" else set()
+        assert set(record) == {"status", "need", "has", "margin"} | extra
     slew = js["rejected"][0]["checks"]["slew"]
     assert slew["status"] == "fail"
     assert_allclose([slew["need"], slew["has"], slew["margin"]],
@@ -114,7 +116,8 @@ def test_parts_with_nothing_recorded_are_unverified_not_passed() -> None:
     sel = select(bare, req)
     assert sel.accepted == [] and sel.rejected == []
     assert sel.unverified[0].unknown == ["swing", "common_mode", "slew", "gain_accuracy",
-                                         "output_current", "supply", "offset", "noise"]
+                                         "output_current", "supply", "dissipation",
+                                         "input_protection", "offset", "noise"]
     assert by_name("offset").needed(sel.spec) == ("vos_v", "ib_a", "ios_a")  # no drift at 25 °C
     empty = select(PARTS.iloc[:0], REQ)
     assert (empty.accepted, empty.rejected, empty.unverified, empty.nearest) == ([], [], [], [])
