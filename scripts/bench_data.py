@@ -140,7 +140,7 @@ def write_sqlite(path: Path, n: int, seed: int = 7) -> Path:
     # sqlite3 stores a NaN as NULL; integer columns get Python ints or None
     data = []
     for name in names:
-        values = cols[name]
+        values = cols.get(name, np.full(n, np.nan))  # a field not synthesised: unknown
         if name in ints:
             data.append([None if v != v else int(v) for v in values.tolist()])
         else:
