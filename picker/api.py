@@ -66,6 +66,10 @@ def built(req: Requirement, series: SeriesName = DEFAULT_SERIES) -> Requirement:
     """
     from picker.design.network import with_designed_network
 
+    if req.is_filter:  # a filter section: capacitors first, resistors snapped
+        from picker.design.filternet import with_filter_network
+
+        return with_filter_network(req, series)
     return with_designed_network(req, series=series,
                                  feedback_ohm=req.rf_ohm if req.rf_pinned else None)
 
@@ -137,9 +141,11 @@ class PartReport:
 
     def to_json(self) -> dict[str, Any]:
         """``picker why --json``: part, spec, verdict and each check's record (SI)."""
+        from picker.checks.filters import phase_deg as filter_phase
         from picker.checks.gain import phase_deg
 
-        phase = float(phase_deg(self.parts, self.spec)[0])
+        phase = float((filter_phase if self.spec.requirement.is_filter else phase_deg)(
+            self.parts, self.spec)[0])
         return {"part": self.part, "spec": self.spec.to_json(), "verdict": self.verdict,
                 "phase_at_f_deg": phase if math.isfinite(phase) else None,
                 "assumed": self.assumed, "checks": self.table.records(0)}
@@ -182,6 +188,10 @@ def design_network(req: Requirement, part: Mapping[str, Any] | None = None, *,
     """
     from picker.design.network import design_network as design
 
+    if req.is_filter:  # picker.design.filternet.FilterNetwork
+        from picker.design.filternet import design_filter
+
+        return design_filter(req, series)
     return design(req, part, series=series, tolerance=req.tolerance, zin_ohm=zin_ohm,
                   feedback_ohm=req.rf_ohm if req.rf_pinned else None)
 

@@ -87,7 +87,7 @@ def node_voltages(net: Netlist, freqs_hz: npt.ArrayLike) -> dict[str, Complex]:
             b[:, row] = volt
         row += 1
     x = np.linalg.solve(m, b[..., None])[..., 0]
-    out = {nd: x[:, i] for nd, i in idx.items()}
+    out: dict[str, Complex] = {nd: x[:, i] for nd, i in idx.items()}
     out[GROUND] = np.zeros(len(f), dtype=complex)
     return out
 

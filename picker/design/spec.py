@@ -112,7 +112,12 @@ class Spec:
         stage's gains and budget, then what each applicable check asks."""
         from picker.checks import applicable
 
-        rows = stage_rows(self)
+        if self.requirement.is_filter:  # here: filterspec imports this module
+            from picker.design.filterspec import filter_rows
+
+            rows = filter_rows(self)
+        else:
+            rows = stage_rows(self)
         for check in applicable(self):
             rows += check.explain(self)
         return rows
@@ -245,6 +250,12 @@ def minimum_specs(req: Requirement) -> Spec:
         Gains, the budget split and the ``Minimums`` (SI units).
     """
     st = stage(req)
+    if req.is_filter:  # a second-order section (picker.design.filterspec)
+        from picker.design.filterspec import filter_specs  # here: it imports this module
+        from picker.stages.filterbase import FilterStage
+
+        assert isinstance(st, FilterStage)
+        return filter_specs(req, st)
     m, f, vp, ref = req.margin, req.freq_hz, req.vout, req.ref
     budget, a0, rin, gbw = _split(req, st)
     vcm = st.cm_per_volt * req.vin

@@ -44,7 +44,7 @@ if TYPE_CHECKING:
 #: Checks that apply to a filter stage (picker.checks names), in no particular order.
 FILTER_CHECKS: frozenset[str] = frozenset({
     "swing", "common_mode", "supply", "offset", "stock",
-    "filter_gbw", "filter_response", "filter_slew", "filter_current",
+    "filter_gbw", "filter_response", "filter_slew", "filter_current", "filter_min_gain",
 })
 #: Resistance level the design aims at, Ω: 1 kΩ .. 100 kΩ keeps the op-amp's output
 #: load light and bias-current offset and resistor noise low (common practice, no source).

@@ -50,7 +50,8 @@ class Section:
         s = 2j * np.pi * np.asarray(freqs_hz, dtype=float)
         wn = 2 * math.pi * self.f0_hz
         den = s * s + wn / self.q * s + wn * wn
-        num = {"lowpass": wn * wn, "highpass": s * s, "bandpass": wn / self.q * s}[self.kind]
+        num: Complex = {"lowpass": np.full_like(s, wn * wn), "highpass": s * s,
+                        "bandpass": wn / self.q * s}[self.kind]
         return self.gain * num / den  # type: ignore[no-any-return]
 
 
@@ -71,7 +72,7 @@ def lowpass_prototype(response: Response, ripple_db: float | None = None) -> tup
     return wn, wn / (2 * sigma)
 
 
-def section(kind: Kind, f0_hz: float, gain: float, response: Response | None = None,
+def section(kind: Kind, f0_hz: float, gain: float, response: str | None = None,
             ripple_db: float | None = None, bandwidth_hz: float | None = None) -> Section:
     """The section a requirement asks for (module docstring).
 
@@ -92,41 +93,70 @@ def section(kind: Kind, f0_hz: float, gain: float, response: Response | None = N
     if kind == "bandpass":
         assert bandwidth_hz is not None
         return Section(kind, f0_hz, f0_hz / bandwidth_hz, gain)
-    ratio, q = lowpass_prototype(response or "butterworth", ripple_db)
+    shape: Response = response if response in RESPONSES else "butterworth"  # type: ignore[assignment]
+    ratio, q = lowpass_prototype(shape, ripple_db)
     fn = f0_hz * ratio if kind == "lowpass" else f0_hz / ratio
     return Section(kind, fn, q, gain)
 
 
-def fit(kind: Kind, freqs_hz: npt.ArrayLike, h: npt.ArrayLike) -> Section:
-    """The second-order section nearest a measured response (least squares).
+def fit_many(kind: Kind, freqs_hz: npt.ArrayLike, h: npt.ArrayLike
+             ) -> tuple[npt.NDArray[np.float64], npt.NDArray[np.float64], npt.NDArray[np.float64]]:
+    """The second-order section nearest each measured response (least squares), per row.
 
     Levy's linearised fit (E. C. Levy, "Complex-curve fitting", IRE Trans. Automatic
     Control AC-4, 1959, from memory): with D(s) = 1 + a1·s + a2·s², solve
     ``H·D(s) = N(s)`` in the least-squares sense for (N's coefficient, a1, a2), real and
-    imaginary parts stacked; N is b0 (low-pass), b2·s² (high-pass) or b1·s (band-pass).
-    Exact for a second-order response; for a real op-amp's (third order and up) it gives
-    the section that best matches the points, which the tests take around f0 (f0/2 to
-    2·f0) for picker and for ngspice alike.
+    imaginary parts stacked and each point weighted by 1/|H| (relative errors); N is b0
+    (low-pass), b2·s² (high-pass) or b1·s (band-pass). Exact for a second-order response;
+    for a real op-amp's (third order and up) it gives the section that best matches the
+    points, taken around f0 (``fit_grid``: f0/2 to 2·f0) for picker and ngspice alike.
+    s is scaled by the grid's middle frequency so the normal equations stay well
+    conditioned; each row (part) is solved at once with batched 3×3 systems.
+
+    Parameters
+    ----------
+    kind : {"lowpass", "highpass", "bandpass"}
+    freqs_hz : array_like, shape (F,)
+    h : array_like, shape (P, F) or (F,)
+        The measured H(j2πf); a row with a NaN gives NaN.
 
     Returns
     -------
-    Section
+    (f0_hz, q, gain) : arrays of shape (P,)
         f0 = 1/(2π·√a2), Q = √a2/a1, gain b0, b2/a2 or b1/a1 (signed).
     """
     f = np.asarray(freqs_hz, dtype=float)
-    hh = np.asarray(h, dtype=complex)
-    s = 2j * np.pi * f
+    hh = np.atleast_2d(np.asarray(h, dtype=complex))
+    w0 = 2 * math.pi * math.sqrt(f[0] * f[-1])
+    s = 2j * math.pi * f / w0  # scaled Laplace variable
     basis = {"lowpass": np.ones_like(s), "highpass": s * s, "bandpass": s}[kind]
-    # H + H·a1·s + H·a2·s² = b·basis  ->  b·basis - a1·H·s - a2·H·s² = H
-    cols = np.stack([basis, -hh * s, -hh * s * s], axis=1)
-    w = 1.0 / np.maximum(np.abs(hh), 1e-300)  # relative errors: each point weighs the same
-    a = np.concatenate([(cols * w[:, None]).real, (cols * w[:, None]).imag])
-    rhs = np.concatenate([(hh * w).real, (hh * w).imag])
-    b, a1, a2 = np.linalg.lstsq(a, rhs, rcond=None)[0]
-    wn = 1 / math.sqrt(a2)
-    q = float(math.sqrt(a2) / a1)
-    gain = {"lowpass": b, "highpass": b / a2, "bandpass": b / a1}[kind]
-    return Section(kind, wn / (2 * math.pi), q, float(gain))
+    bad = ~np.all(np.isfinite(hh), axis=1)
+    hh = np.where(bad[:, None], 1.0, hh)
+    cols = np.stack([np.broadcast_to(basis, hh.shape), -hh * s, -hh * s * s], axis=2)
+    w = 1.0 / np.maximum(np.abs(hh), 1e-300)
+    cw = cols * w[:, :, None]
+    a = np.concatenate([cw.real, cw.imag], axis=1)  # (P, 2F, 3)
+    rhs = np.concatenate([(hh * w).real, (hh * w).imag], axis=1)  # (P, 2F)
+    ata = np.einsum("pki,pkj->pij", a, a)
+    atb = np.einsum("pki,pk->pi", a, rhs)
+    x = np.linalg.solve(ata, atb[..., None])[..., 0]
+    b, a1, a2 = x[:, 0], x[:, 1] / w0, x[:, 2] / w0**2
+    if kind == "highpass":
+        b = b / w0**2
+    elif kind == "bandpass":
+        b = b / w0
+    with np.errstate(invalid="ignore", divide="ignore"):
+        f0 = 1 / (2 * math.pi * np.sqrt(a2))
+        q = np.sqrt(a2) / a1
+        gain = {"lowpass": b, "highpass": b / a2, "bandpass": b / a1}[kind]
+    nan = np.where(bad, np.nan, 0.0)
+    return f0 + nan, q + nan, gain + nan
+
+
+def fit(kind: Kind, freqs_hz: npt.ArrayLike, h: npt.ArrayLike) -> Section:
+    """The section nearest one measured response (``fit_many`` for one row)."""
+    f0, q, gain = fit_many(kind, freqs_hz, np.asarray(h)[None, :])
+    return Section(kind, float(f0[0]), float(q[0]), float(gain[0]))
 
 
 def fit_grid(f0_hz: float, points: int = 41) -> npt.NDArray[np.float64]:
@@ -134,5 +164,5 @@ def fit_grid(f0_hz: float, points: int = 41) -> npt.NDArray[np.float64]:
     return np.logspace(math.log10(f0_hz / 2), math.log10(f0_hz * 2), points)
 
 
-__all__ = ["RESPONSES", "Kind", "Response", "Section", "fit", "fit_grid", "lowpass_prototype",
+__all__ = ["RESPONSES", "Kind", "Response", "Section", "fit", "fit_grid", "fit_many", "lowpass_prototype",
            "section"]
