@@ -262,12 +262,19 @@ def response(req: Requirement, store: Any, part: str, freq_hz: float | None = No
 
     Returns
     -------
-    picker.design.response.Response
-        One row; ``summary(0)`` is ``picker bode PART --json`` (Hz, dB, degrees).
+    picker.design.response.Response, or picker.design.filterresp.FilterResponse
+        One row; ``summary(0)`` is ``picker bode PART --json`` (Hz, dB, degrees; a filter
+        adds the section the part makes, f0, Q and pass-band gain, and its -3 dB edges).
     """
     from picker.design.response import COLUMNS
     from picker.design.response import response as resp
 
+    if req.is_filter:  # picker.design.filterresp.FilterResponse: the section and its edges
+        from picker.design.filterresp import response as filter_resp
+
+        out = filter_resp(built(req), part_frame(store, part, COLUMNS), freq_hz)
+        _need_known(bool(out.known[0]), part, "gain-bandwidth product")
+        return out
     out = resp(built(req), part_frame(store, part, COLUMNS), freq_hz)
     _need_known(bool(out.known[0]), part, "gain-bandwidth product")
     return out

@@ -86,7 +86,7 @@ def node_voltages(net: Netlist, freqs_hz: npt.ArrayLike) -> dict[str, Complex]:
                     m[:, row, idx[nd]] += sign
             b[:, row] = volt
         row += 1
-    x = np.linalg.solve(m, b[..., None])[..., 0]
+    x: Complex = np.linalg.solve(m, b[..., None])[..., 0]  # type: ignore[assignment]
     out: dict[str, Complex] = {nd: x[:, i] for nd, i in idx.items()}
     out[GROUND] = np.zeros(len(f), dtype=complex)
     return out

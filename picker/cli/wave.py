@@ -129,10 +129,17 @@ def bode(part: str, stage: dict[str, Any], png: str | None, size: str | None, as
     req = api.built(build_requirement(stage))
     pixels = _size(size, BODE_SIZE)
     resp = api.response(req, open_store(db), part)
+    plain = resp.response if req.is_filter else resp  # a filter's: its Response inside
     if png:
         from picker.report.plots import bode_figure, save_png
 
-        save_png(bode_figure(resp, 0, pixels), png, _db_files(db))
+        save_png(bode_figure(plain, 0, pixels), png, _db_files(db))
+    if req.is_filter:
+        from picker.report.filters import bode_text as filter_bode_text
+
+        _emit(resp.summary(0), lambda: filter_bode_text(resp, 0, req), png, as_json,
+              req.cautions)
+        return
     _emit(resp.summary(0), lambda: bode_text(resp, 0, req), png, as_json, req.cautions)
 
 
