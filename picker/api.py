@@ -272,9 +272,9 @@ def response(req: Requirement, store: Any, part: str, freq_hz: float | None = No
     if req.is_filter:  # picker.design.filterresp.FilterResponse: the section and its edges
         from picker.design.filterresp import response as filter_resp
 
-        out = filter_resp(built(req), part_frame(store, part, COLUMNS), freq_hz)
-        _need_known(bool(out.known[0]), part, "gain-bandwidth product")
-        return out
+        fr = filter_resp(built(req), part_frame(store, part, COLUMNS), freq_hz)
+        _need_known(bool(fr.known[0]), part, "gain-bandwidth product")
+        return fr
     out = resp(built(req), part_frame(store, part, COLUMNS), freq_hz)
     _need_known(bool(out.known[0]), part, "gain-bandwidth product")
     return out
