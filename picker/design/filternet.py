@@ -7,6 +7,10 @@ series, to absorb the error), then solves the exact resistors. Each resistor tha
 f0, Q or the gain is then snapped to one of its four nearest values in the resistor series
 (two below, two above; default E24) and every combination is tried (at most 4⁴ = 256,
 one array evaluation): the one kept has the smallest worst relative error of f0, Q and gain against the section asked for (ties: the first).
+The same is done for the capacitors one and two series steps either side of the nominal
+level (``LEVELS``), and the design with the smallest such error is kept: E-series are
+nearly geometric, so f0 ∝ 1/√(R·R·C·C) moves in steps of about half a series step,
+and a second capacitor choice often lands between them.
 
 Sensitivity to tolerance, from the closed-form ideal transfer function of the stage type
 (``biquad``), every resistor within ±``tolerance`` and every capacitor within
@@ -40,6 +44,9 @@ from picker.stages.sections import Section
 MC_SAMPLES = 20_000
 MC_SEED = 60063
 FIGURES = ("f0", "q", "gain")
+#: Capacitance levels tried besides the nominal one (× the 10 kΩ level's capacitance):
+#: about one E12 step either side, so the resistors stay within 1 kΩ .. 100 kΩ.
+LEVELS = (1 / 1.2, 1.2, 1 / 1.5, 1.5)
 #: How many series values on each side of an exact resistor the snapping tries.
 NEIGHBOURS = 2
 
@@ -117,6 +124,12 @@ def _snap(ft: FilterType, sec: Section, rs: float, exact: Mapping[str, float],
     return {**exact, **{n: float(combos[best, i]) for i, n in enumerate(names)}}
 
 
+def _worst(ft: FilterType, sec: Section, rs: float, values: Mapping[str, float]) -> float:
+    got = _figures(ft, rs, values)
+    want = {"f0": sec.f0_hz, "q": sec.q, "gain": sec.gain}
+    return max(abs(float(np.asarray(got[f])) / want[f] - 1) for f in FIGURES)
+
+
 def _parts(values: Mapping[str, float]) -> list[str]:
     """The components a tolerance moves (finite, non-zero)."""
     return [n for n, v in values.items() if 0 < v < math.inf]
@@ -170,6 +183,13 @@ def design_filter(req: Requirement, series: es.SeriesName = "E24") -> FilterNetw
         notes.append("network as given (not designed)")
     else:
         built = _snap(ft, sec, rs, exact, series)
+        for level in LEVELS:  # other capacitor choices may snap closer
+            other = ft.solve(sec, rs, req.cap_series, level)
+            if any(not v >= 0 for v in other.values()):
+                continue
+            snapped = _snap(ft, sec, rs, other, series)
+            if _worst(ft, sec, rs, snapped) < _worst(ft, sec, rs, built) - 1e-12:
+                exact, built = other, snapped
     if any(not v >= 0 for v in built.values()):
         from picker.errors import BadRequirement
 

@@ -153,8 +153,10 @@ class FilterType(StageType):
         """(K, ωn, Q) of the ideal transfer function for arrays of component values."""
 
     @abstractmethod
-    def solve(self, sec: Section, rs: float, cap_series: Any) -> dict[str, float]:
-        """The exact network for ``sec``: capacitors from ``cap_series``, resistors solved."""
+    def solve(self, sec: Section, rs: float, cap_series: Any,
+              level: float = 1.0) -> dict[str, float]:
+        """The exact network for ``sec``: capacitors from ``cap_series`` (near ``level``
+        times the capacitance of the 10 kΩ level), resistors solved."""
 
     def netlist(self, res: Mapping[str, float], rs: float, load: float) -> Netlist:
         raise NotImplementedError

@@ -54,9 +54,10 @@ class MfbBandpass(FilterType):
         wn = np.sqrt(w2)
         return -r3 * c2 / (r1 * (c1 + c2)), wn, wn / b
 
-    def solve(self, sec: Section, rs: float, cap_series: Any) -> dict[str, float]:
+    def solve(self, sec: Section, rs: float, cap_series: Any,
+              level: float = 1.0) -> dict[str, float]:
         k, q, wn = abs(sec.gain), sec.q, 2 * math.pi * sec.f0_hz
-        c = capacitor(base_capacitance(sec.f0_hz), cap_series)
+        c = capacitor(base_capacitance(sec.f0_hz) * level, cap_series)
         return {"r1": q / (k * wn * c) - rs, "r2": q / ((2 * q * q - k) * wn * c),
                 "r3": 2 * q / (wn * c), "c1": c, "c2": c}
 

@@ -56,10 +56,11 @@ class MfbLowpass(FilterType):
         prod = r2 * r3 * c1 * c2
         return -r2 / r1, 1 / np.sqrt(prod), np.sqrt(prod) / (c2 * (r2 + r3 + r2 * r3 / r1))
 
-    def solve(self, sec: Section, rs: float, cap_series: Any) -> dict[str, float]:
+    def solve(self, sec: Section, rs: float, cap_series: Any,
+              level: float = 1.0) -> dict[str, float]:
         k, q, wn = abs(sec.gain), sec.q, 2 * math.pi * sec.f0_hz
         n_min = 4 * q * q * (1 + k)
-        c2 = capacitor(base_capacitance(sec.f0_hz, n_min), cap_series)
+        c2 = capacitor(base_capacitance(sec.f0_hz, n_min) * level, cap_series)
         c1 = capacitor(n_min * c2, cap_series, at_least=True)
         p = 1 / (wn * wn * c1 * c2)
         b = wn * c1 / q

@@ -55,9 +55,10 @@ class VcvsHighpass(FilterType):
         wn = np.sqrt(w2)
         return k, wn, wn / b
 
-    def solve(self, sec: Section, rs: float, cap_series: Any) -> dict[str, float]:
+    def solve(self, sec: Section, rs: float, cap_series: Any,
+              level: float = 1.0) -> dict[str, float]:
         k, q, wn = sec.gain, sec.q, 2 * math.pi * sec.f0_hz
-        c = capacitor(base_capacitance(sec.f0_hz), cap_series)
+        c = capacitor(base_capacitance(sec.f0_hz) * level, cap_series)
         r1 = (1 / q + math.sqrt(1 / q**2 + 8 * (k - 1))) / (4 * wn * c)
         return {"r1": r1, "r2": 1 / (wn * wn * c * c * r1), "c1": c, "c2": c, **gain_pair(k)}
 

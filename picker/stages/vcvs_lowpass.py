@@ -67,11 +67,12 @@ class VcvsLowpass(FilterType):
         prod = r1 * r2 * c1 * c2
         return k, 1 / np.sqrt(prod), np.sqrt(prod) / ((r1 + r2) * c2 + r1 * c1 * (1 - k))
 
-    def solve(self, sec: Section, rs: float, cap_series: Any) -> dict[str, float]:
+    def solve(self, sec: Section, rs: float, cap_series: Any,
+              level: float = 1.0) -> dict[str, float]:
         k, q, wn = sec.gain, sec.q, 2 * math.pi * sec.f0_hz
         bound = 1 / (4 * q * q) + k - 1  # c2/c1 must not exceed it
         n_min = 1.0 if bound >= 1 else 1 / bound
-        c2 = capacitor(base_capacitance(sec.f0_hz, n_min), cap_series)
+        c2 = capacitor(base_capacitance(sec.f0_hz, n_min) * level, cap_series)
         c1 = capacitor(n_min * c2, cap_series, at_least=True)
         p = 1 / (wn * wn * c1 * c2)
         b = 1 / (wn * q)
