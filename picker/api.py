@@ -234,9 +234,36 @@ def waveform(req: Requirement, store: Any, part: str, freq_hz: float | None = No
     """
     from picker.design.waveform import COLUMNS, waveforms
 
+    if req.is_filter:  # the filter's circuit, linear, limits flagged (picker.design.filterwave)
+        from picker.design.filterwave import COLUMNS as FILTER_COLUMNS
+        from picker.design.filterwave import sine
+
+        fw = sine(built(req), part_frame(store, part, FILTER_COLUMNS), freq_hz)
+        _need_known(bool(fw.known[0]), part, "gain-bandwidth product")
+        return fw
     waves = waveforms(built(req), part_frame(store, part, COLUMNS), freq_hz)
     _need_known(bool(waves.known[0]), part, "gain-bandwidth product or slew rate")
     return waves
+
+
+def step(req: Requirement, store: Any, part: str) -> Any:
+    """The response of a filter stage with one part (by label) to a step of ``--vin``.
+
+    Returns
+    -------
+    picker.design.filterwave.Step
+        ``summary()`` is ``picker wave PART --step --json`` (V, s; overshoot as a ratio).
+        BadRequirement for a resistive stage; BadValue when the part lacks its GBW.
+    """
+    from picker.design.filterwave import COLUMNS, step_response
+    from picker.errors import BadRequirement
+
+    if not req.is_filter:
+        raise BadRequirement("--step: applies to the filter stages (vcvs-lowpass, "
+                             "vcvs-highpass, mfb-lowpass, mfb-bandpass); omit it")
+    out = step_response(built(req), part_frame(store, part, COLUMNS))
+    _need_known(bool(out.waves.known[0]), part, "gain-bandwidth product")
+    return out
 
 
 def candidates(req: Requirement, store: Any, n: int = 4) -> Any:
@@ -491,7 +518,7 @@ def note(req: Requirement, store: Any, part: str | None = None, *,
         missing=missing)
 
 
-__all__ = ["PartReport", "built", "candidates", "design_network", "envelope", "note",
+__all__ = ["PartReport", "built", "candidates", "step", "design_network", "envelope", "note",
            "part_frame", "requirement_rows",
            "parts_for", "sweep",
            "pick",
