@@ -206,7 +206,7 @@ def step(req: Any, parts: Any) -> Waves:
         1 / (2 * math.pi * sec.f0_hz * (1 / (2 * sec.q) - math.sqrt(1 / (4 * sec.q**2) - 1))))
     t_end = 12 * tau
     h = t_end / STEPS
-    t = np.arange(STEPS + 1) * h
+    t: Array = np.arange(STEPS + 1, dtype=float) * h
     u = np.full(len(t), req.vin)
     u[0] = 0.0
     sy = system(st, a0, gbw, rin, ro)

@@ -709,7 +709,10 @@ def _build(values: Mapping[str, tuple[Any, str]]) -> Requirement:
     filt = kw["topology"] in ("vcvs-lowpass", "vcvs-highpass", "mfb-lowpass", "mfb-bandpass")
     if filt and "response" not in kw and kw["topology"] != "mfb-bandpass":
         kw["response"] = "butterworth"
-    if filt and "freq_hz" not in kw and "f0_hz" in kw:
+    if filt and "f0_hz" not in kw:
+        raise BadRequirement(f"{lab('f0')}: missing; give the section's corner (or centre) "
+                             "frequency, e.g. --f0 1kHz")
+    if filt and "freq_hz" not in kw:
         kw["freq_hz"] = 10 * kw["f0_hz"]  # the top of the band a section acts on
     if "gain" not in kw:
         if kw["topology"] != "follower" and not filt:
