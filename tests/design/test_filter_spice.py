@@ -148,3 +148,34 @@ def test_boundary_parts_around_the_gbw_rule() -> None:
     for scale, verdict in ((0.98, "fail"), (1.02, "pass")):
         parts = Parts.from_columns(["b"], {"gbw_hz": [rule * scale]})
         assert run_checks(parts, api.spec(req)).results["filter_gbw"].status(0) == verdict
+
+
+@pytest.mark.parametrize("topology", ["vcvs-lowpass", "mfb-bandpass"])
+def test_step_response_matches_ngspice_tran(topology: str, tmp_path: Path) -> None:
+    import subprocess
+
+    from picker.design.filterwave import step
+    from tests.design.reference import _netlist_lines, need_ngspice
+
+    req, st = built(topology)
+    part = demo_part("jfet-gp-a")
+    frame = {k: [v] for k, v in part.items()}
+    w = step(req, frame)
+    t, vo = w.t, w.vout[0] - w.drive.ref_v
+    amp = OpAmp(part["aol_v_per_v"], part["gbw_hz"], part["rin_ohm"], part["rout_ohm"])
+    lines = _netlist_lines(spice_circuit("t", topology, dict(st.resistors), amp), 0)
+    h = float(t[1] - t[0])
+    vin = req.vin  # type: ignore[attr-defined]
+    lines = [f"V0_0 c0_s 0 PWL(0 0 {h!r} {vin!r})" if ln.startswith("V0_0 ") else ln
+             for ln in lines]
+    stop = float(t[-1])
+    deck = ["* step", *lines, ".control", "set wr_singlescale", "set wr_vecnames",
+            f"tran {h / 4!r} {stop!r} 0 {h / 4!r}", "wrdata tran.txt v(c0_o)", ".endc", ".end", ""]
+    (tmp_path / "step.cir").write_text("\n".join(deck))
+    subprocess.run([need_ngspice(), "-b", "step.cir"], cwd=tmp_path, capture_output=True,
+                   timeout=120, check=False)
+    rows = np.loadtxt(tmp_path / "tran.txt", skiprows=1)
+    spice = np.interp(t, rows[:, 0], rows[:, 1])
+    scale = float(np.max(np.abs(spice)))
+    # ngspice .tran of the same circuit: the step response within 1% of its peak
+    np.testing.assert_allclose(vo, spice, atol=0.01 * scale)
