@@ -66,6 +66,10 @@ def built(req: Requirement, series: SeriesName = DEFAULT_SERIES) -> Requirement:
     """
     from picker.design.network import with_designed_network
 
+    if req.is_filter:  # a filter section: capacitors first, resistors snapped
+        from picker.design.filternet import with_filter_network
+
+        return with_filter_network(req, series)
     return with_designed_network(req, series=series,
                                  feedback_ohm=req.rf_ohm if req.rf_pinned else None)
 
@@ -137,10 +141,12 @@ class PartReport:
 
     def to_json(self) -> dict[str, Any]:
         """``picker why --json``: part, spec, verdict and each check's record (SI)."""
+        from picker.checks.filters import phase_deg as filter_phase
         from picker.checks.gain import phase_deg
         from picker.checks.rejection import stage_db
 
-        phase = float(phase_deg(self.parts, self.spec)[0])
+        phase = float((filter_phase if self.spec.requirement.is_filter else phase_deg)(
+            self.parts, self.spec)[0])
         out = {"part": self.part, "spec": self.spec.to_json(), "verdict": self.verdict,
                "phase_at_f_deg": phase if math.isfinite(phase) else None}
         if "common_mode_rejection" in self.table.results:
@@ -239,6 +245,10 @@ def design_network(req: Requirement, part: Mapping[str, Any] | None = None, *,
     """
     from picker.design.network import design_network as design
 
+    if req.is_filter:  # picker.design.filternet.FilterNetwork
+        from picker.design.filternet import design_filter
+
+        return design_filter(req, series)
     return design(req, part, series=series, tolerance=req.tolerance, zin_ohm=zin_ohm,
                   feedback_ohm=req.rf_ohm if req.rf_pinned else None)
 
@@ -281,9 +291,36 @@ def waveform(req: Requirement, store: Any, part: str, freq_hz: float | None = No
     """
     from picker.design.waveform import COLUMNS, waveforms
 
+    if req.is_filter:  # the filter's circuit, linear, limits flagged (picker.design.filterwave)
+        from picker.design.filterwave import COLUMNS as FILTER_COLUMNS
+        from picker.design.filterwave import sine
+
+        fw = sine(built(req), part_frame(store, part, FILTER_COLUMNS), freq_hz)
+        _need_known(bool(fw.known[0]), part, "gain-bandwidth product")
+        return fw
     waves = waveforms(built(req), part_frame(store, part, COLUMNS), freq_hz)
     _need_known(bool(waves.known[0]), part, "gain-bandwidth product or slew rate")
     return waves
+
+
+def step(req: Requirement, store: Any, part: str) -> Any:
+    """The response of a filter stage with one part (by label) to a step of ``--vin``.
+
+    Returns
+    -------
+    picker.design.filterwave.Step
+        ``summary()`` is ``picker wave PART --step --json`` (V, s; overshoot as a ratio).
+        BadRequirement for a resistive stage; BadValue when the part lacks its GBW.
+    """
+    from picker.design.filterwave import COLUMNS, step_response
+    from picker.errors import BadRequirement
+
+    if not req.is_filter:
+        raise BadRequirement("--step: applies to the filter stages (vcvs-lowpass, "
+                             "vcvs-highpass, mfb-lowpass, mfb-bandpass); omit it")
+    out = step_response(built(req), part_frame(store, part, COLUMNS))
+    _need_known(bool(out.waves.known[0]), part, "gain-bandwidth product")
+    return out
 
 
 def candidates(req: Requirement, store: Any, n: int = 4) -> Any:
@@ -309,12 +346,19 @@ def response(req: Requirement, store: Any, part: str, freq_hz: float | None = No
 
     Returns
     -------
-    picker.design.response.Response
-        One row; ``summary(0)`` is ``picker bode PART --json`` (Hz, dB, degrees).
+    picker.design.response.Response, or picker.design.filterresp.FilterResponse
+        One row; ``summary(0)`` is ``picker bode PART --json`` (Hz, dB, degrees; a filter
+        adds the section the part makes, f0, Q and pass-band gain, and its -3 dB edges).
     """
     from picker.design.response import COLUMNS
     from picker.design.response import response as resp
 
+    if req.is_filter:  # picker.design.filterresp.FilterResponse: the section and its edges
+        from picker.design.filterresp import response as filter_resp
+
+        fr = filter_resp(built(req), part_frame(store, part, COLUMNS), freq_hz)
+        _need_known(bool(fr.known[0]), part, "gain-bandwidth product")
+        return fr
     out = resp(built(req), part_frame(store, part, COLUMNS), freq_hz)
     _need_known(bool(out.known[0]), part, "gain-bandwidth product")
     return out
@@ -576,5 +620,6 @@ def netlist(req: Requirement, store: Any, part: str) -> str:
 
 __all__ = ["MAX_SIDE_BY_SIDE", "PartReport", "SideBySide", "built", "candidates",
            "design_network", "envelope", "netlist", "note", "part_frame", "parts_for", "pick",
+           "step",
            "requirement", "requirement_rows", "response", "spec", "sweep", "waveform", "why",
            "why_side_by_side"]

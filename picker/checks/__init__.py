@@ -108,13 +108,13 @@ class Check:
 
 
 def _registry() -> tuple[Check, ...]:
-    from picker.checks import accuracy, gain, limits, protection, rejection, thermal
+    from picker.checks import accuracy, filters, gain, limits, protection, rejection, thermal
 
     return (limits.SWING, limits.COMMON_MODE, rejection.CMRR_CHECK, limits.SLEW,
             gain.GAIN_ACCURACY, gain.PHASE, limits.OUTPUT_CURRENT, limits.SUPPLY,
             thermal.DISSIPATION, protection.INPUT_PROTECTION,
             accuracy.OFFSET, accuracy.NOISE,
-            limits.STOCK)
+            limits.STOCK, *filters.CHECKS)
 
 
 _CHECKS: tuple[Check, ...] | None = None
@@ -137,7 +137,7 @@ def by_name(name: str) -> Check:
 
 def applicable(spec: Spec) -> tuple[Check, ...]:
     """The checks that apply to ``spec``'s stage, in report order."""
-    return tuple(c for c in registered() if c.applies(spec))
+    return tuple(c for c in registered() if spec.stage.allows(c.name) and c.applies(spec))
 
 
 #: Columns the ranking and the pick listing read besides the checks.

@@ -61,6 +61,10 @@ def net(stage: dict[str, Any], series: str, zin: float | None,
     from picker.report.tables import to_json
 
     req = build_requirement(stage)
+    if req.is_filter:
+        _filter_net(req, series, part, as_json)
+        save_requirement(stage, save, db)
+        return
     row = open_store(db).get(part) if part else None
     network = api.design_network(req, row, series=series,  # type: ignore[arg-type]
                                  zin_ohm=zin)
@@ -74,3 +78,23 @@ def net(stage: dict[str, Any], series: str, zin: float | None,
     click.echo(render(network, part=part, exact=exact, freq_hz=req.freq_hz,
                       cautions=req.cautions))
     save_requirement(stage, save, db)
+
+
+def _filter_net(req: Any, series: str, part: str | None, as_json: bool) -> None:
+    """``picker net`` for a filter stage: capacitors, resistors and their spread."""
+    from picker import api
+    from picker.errors import BadValue
+    from picker.report.filters import net_text
+    from picker.report.tables import to_json
+
+    if part is not None:
+        raise BadValue("--part", part, "applies to the resistive stages; for a filter, "
+                       "`picker why PART` and `picker bode PART` show the section the part "
+                       "makes")
+    network = api.design_network(req, series=series)  # type: ignore[arg-type]
+    if as_json:
+        click.echo(to_json(network.as_json()))
+        for c in req.cautions:
+            click.echo(c, err=True)
+        return
+    click.echo(net_text(network, req.cautions))

@@ -18,7 +18,8 @@ from picker.cli.params import QuantityParam, RailsParam
 
 F = TypeVar("F", bound=Callable[..., Any])
 
-TOPOLOGY_CHOICE = click.Choice(["inverting", "non-inverting", "follower", "difference"])
+TOPOLOGY_CHOICE = click.Choice(["inverting", "non-inverting", "follower", "difference",
+                                "vcvs-lowpass", "vcvs-highpass", "mfb-lowpass", "mfb-bandpass"])
 
 # (parameter name, option, click type, help); requirement keys are the option names
 _OPTIONS: tuple[tuple[str, str, Any, str], ...] = (
@@ -29,7 +30,7 @@ _OPTIONS: tuple[tuple[str, str, Any, str], ...] = (
      "input amplitude with its form: 0.5Vpk, 1Vpp, 0.35Vrms (bare = peak)"),
     ("vout", "--vout", QuantityParam("amplitude"), "output amplitude instead of --vin"),
     ("freq", "--freq", QuantityParam("frequency", positive=True),
-     "top signal frequency (a sine), e.g. 20kHz"),
+     "top signal frequency (a sine), e.g. 20kHz (filters: default 10 x --f0)"),
     ("ref", "--ref", QuantityParam("voltage"),
      "DC level the signal rides on (default: mid-rail)"),
     ("load", "--load", QuantityParam("resistance", positive=True),
@@ -64,6 +65,20 @@ _OPTIONS: tuple[tuple[str, str, Any, str], ...] = (
      "least phase margin of the loop (default 45°)"),
     ("ripple", "--ripple", str,
      "supply ripple on each rail as amplitude@frequency, e.g. 50mVpp@100Hz (default: none)"),
+    ("f0", "--f0", QuantityParam("frequency", positive=True),
+     "filter: corner frequency (low-, high-pass) or centre (band-pass), e.g. 1kHz"),
+    ("response", "--response", click.Choice(["butterworth", "bessel", "chebyshev"]),
+     "filter: response shape of a low- or high-pass (default butterworth)"),
+    ("passband_ripple", "--passband-ripple", QuantityParam("decibel"),
+     "filter: pass-band ripple of a chebyshev response, e.g. 0.5dB"),
+    ("bandwidth", "--bandwidth", QuantityParam("frequency", positive=True),
+     "filter: -3 dB bandwidth of a band-pass (Q = f0/bandwidth)"),
+    ("cap_tolerance", "--cap-tolerance", QuantityParam("ratio"),
+     "filter: tolerance of the capacitors (default 5%)"),
+    ("cap_series", "--cap-series", click.Choice(["E6", "E12", "E24"], case_sensitive=False),
+     "filter: capacitor series (default E12)"),
+    ("response_error", "--response-error", QuantityParam("ratio", positive=True),
+     "filter: how far the op-amp may move f0, Q and gain from the network's (default 2%)"),
 )
 
 KEYS: tuple[str, ...] = tuple(name for name, *_ in _OPTIONS) + ("mains", "assume",

@@ -45,10 +45,12 @@ def _size(text: str | None, default: tuple[int, int]) -> tuple[int, int]:
               help="write the plot to this PNG file")
 @click.option("--size", metavar="WxH", help="PNG size in pixels (default 1000x600; "
               "with --top 1200x900)")
+@click.option("--step", "step", is_flag=True,
+              help="filter stages: the response to a step of --vin instead of the sine")
 @click.option("--json", "as_json", is_flag=True, help="JSON on stdout (SI units, THD as ratio)")
 @db_option
 def wave(part: str | None, stage: dict[str, Any], top: int | None, png: str | None,
-         size: str | None, as_json: bool, db: str | None) -> None:
+         size: str | None, step: bool, as_json: bool, db: str | None) -> None:
     """Predict a part's output waveform in the stage.
 
     A sine at the top frequency (--freq) drives the stage; the output is simulated with
@@ -68,6 +70,13 @@ def wave(part: str | None, stage: dict[str, Any], top: int | None, png: str | No
 
     req = api.built(build_requirement(stage))  # built once: every step below reuses it
     pixels = _size(size, WAVE_SIZE if top is None else GRID_SIZE)
+    if req.is_filter and top is not None:
+        raise click.UsageError("--top: give a PART for a filter stage (its prediction is "
+                               "made one part at a time)")
+    if step:
+        assert part is not None
+        _step(req, part, png, pixels, as_json, db)
+        return
     if top is not None:
         _top(req, top, png, pixels, as_json, db)
         return
@@ -80,6 +89,19 @@ def wave(part: str | None, stage: dict[str, Any], top: int | None, png: str | No
 
         save_png(wave_figure(waves, 0, pixels), png, _db_files(db))
     _emit(waves.summary(0), lambda: wave_text(waves, 0, req), png, as_json, req.cautions)
+
+
+def _step(req: Any, part: str, png: str | None, pixels: tuple[int, int], as_json: bool,
+          db: str | None) -> None:
+    from picker import api
+    from picker.report.filters import step_text
+
+    res = api.step(req, open_store(db), part)
+    if png:
+        from picker.report.plots import save_png, wave_figure
+
+        save_png(wave_figure(res.waves, 0, pixels), png, _db_files(db))
+    _emit(res.summary(), lambda: step_text(res, req), png, as_json, req.cautions)
 
 
 def _top(req: Any, n: int, png: str | None, pixels: tuple[int, int], as_json: bool,
@@ -129,10 +151,17 @@ def bode(part: str, stage: dict[str, Any], png: str | None, size: str | None, as
     req = api.built(build_requirement(stage))
     pixels = _size(size, BODE_SIZE)
     resp = api.response(req, open_store(db), part)
+    plain = resp.response if req.is_filter else resp  # a filter's: its Response inside
     if png:
         from picker.report.plots import bode_figure, save_png
 
-        save_png(bode_figure(resp, 0, pixels), png, _db_files(db))
+        save_png(bode_figure(plain, 0, pixels), png, _db_files(db))
+    if req.is_filter:
+        from picker.report.filters import bode_text as filter_bode_text
+
+        _emit(resp.summary(0), lambda: filter_bode_text(resp, 0, req), png, as_json,
+              req.cautions)
+        return
     _emit(resp.summary(0), lambda: bode_text(resp, 0, req), png, as_json, req.cautions)
 
 

@@ -81,6 +81,10 @@ class Selection:
 
         if not len(rows):
             return []
+        if self.spec.requirement.is_filter:  # the real response against the network's
+            from picker.checks.filters import phase_deg as filter_phase
+
+            phase_deg = filter_phase  # noqa: F811
         ph = phase_deg(self.parts.take(np.asarray(rows, dtype=np.intp)), self.spec)
         return [None if not np.isfinite(x) else float(x) for x in ph.tolist()]
 

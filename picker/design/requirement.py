@@ -36,7 +36,8 @@ from picker.errors import BadRequirement, BadValue
 from picker.quantities import Brief, as_number, check_rails, parse, parse_amplitude, parse_rails
 from picker.stages import kind, kinds
 
-Topology = Literal["inverting", "non-inverting", "follower", "difference"]
+Topology = Literal["inverting", "non-inverting", "follower", "difference", "vcvs-lowpass",
+                   "vcvs-highpass", "mfb-lowpass", "mfb-bandpass"]
 TOPOLOGIES: tuple[Topology, ...] = get_args(Topology)
 
 #: Extra-low voltage limit for DC (IEC 61140 practice): beyond it, a caution.
@@ -74,7 +75,19 @@ KEYS: dict[str, str] = {
     "cmrr": "cmrr_min_db",
     "phase-margin": "phase_margin_deg",
     "ripple": "ripple",
+    "f0": "f0_hz",
+    "response": "response",
+    "passband-ripple": "passband_ripple_db",
+    "bandwidth": "bandwidth_hz",
+    "cap-tolerance": "cap_tolerance",
+    "cap-series": "cap_series",
+    "response-error": "response_error",
 }
+
+#: Keys that describe a filter section; other stages refuse them.
+FILTER_KEYS = ("f0", "response", "passband-ripple", "bandwidth")
+#: The response shapes of a low- or high-pass section (trade terms).
+RESPONSES = ("butterworth", "bessel", "chebyshev")
 
 Label = Callable[[str], str]
 
@@ -90,6 +103,7 @@ RANGES: dict[str, tuple[float, float, str]] = {
     "source": (0.0, 1e12, "Ω (0 to 1 TΩ)"),
     "rf": (1e-3, 1e12, "Ω (1 mΩ to 1 TΩ)"),
     "network": (1e-3, 1e12, "Ω (1 mΩ to 1 TΩ; 0 where a short is allowed)"),
+    "network-c": (1e-15, 1.0, "F (1 fF to 1 F)"),
     "gain-error": (1e-9, 1.0, "(1 ppb to 100%)"),
     "offset-max": (1e-12, 1e3, "V (1 pV to 1 kV)"),
     "noise-max": (1e-12, 1e3, "V (1 pV to 1 kV)"),
@@ -101,6 +115,11 @@ RANGES: dict[str, tuple[float, float, str]] = {
     "phase-margin": (1.0, 89.0, "° (1° to 89°)"),
     "ripple": (1e-9, 1e3, "V (1 nV to 1 kV)"),
     "ripple-freq": (1e-3, 1e9, "Hz (1 mHz to 1 GHz)"),
+    "f0": (1e-3, 1e8, "Hz (1 mHz to 100 MHz)"),
+    "bandwidth": (1e-4, 1e8, "Hz (0.1 mHz to 100 MHz)"),
+    "passband-ripple": (0.001, 6.0, "dB (0.001 dB to 6 dB)"),
+    "cap-tolerance": (0.0, 0.2, "(0 to 20%)"),
+    "response-error": (1e-6, 0.5, "(1 ppm to 50%)"),
 }
 
 
@@ -163,6 +182,22 @@ class Requirement:
     phase_margin_deg: float = 45.0  # least phase margin of the loop, degrees
     # rail ripple (peak amplitude V, frequency Hz) for the supply-rejection budget
     ripple: tuple[float, float] | None = None
+    # second-order filter stages (picker.stages.filterbase): corner or centre frequency,
+    # response shape, chebyshev pass-band ripple (dB), band-pass -3 dB bandwidth (Hz)
+    f0_hz: float | None = None
+    response: str | None = None
+    passband_ripple_db: float | None = None
+    bandwidth_hz: float | None = None
+    cap_tolerance: float = 0.05  # of the filter's capacitors (C0G/NP0 film and ceramic 5%)
+    cap_series: str = "E12"  # the IEC 60063 series capacitors are chosen from
+    response_error: float = 0.02  # how far the op-amp may move f0, Q and gain (ratio)
+
+    @property
+    def is_filter(self) -> bool:
+        """True for a second-order filter stage (it has a section, not just a gain)."""
+        from picker.stages.filterbase import FilterType
+
+        return isinstance(kind(self.topology), FilterType)
 
     def __post_init__(self) -> None:
         self.validate(option_label)
@@ -304,6 +339,7 @@ class Requirement:
             if lo < self.rail_neg - 1e3 or hi > self.rail_pos + 1e3:
                 raise BadRequirement(f"{label('vcm')}: {lo:g}..{hi:g} V is not a common-mode "
                                      "level a stage on these rails sees; check the units")
+        self._validate_filter(label)
         if not (self.cload_f >= 0 and math.isfinite(self.cload_f)):
             raise BadRequirement(f"{label('cload')}: the load capacitance must be >= 0 F")
         if not (0 < self.phase_margin_deg < 90):
@@ -323,6 +359,55 @@ class Requirement:
             if missing:
                 raise BadRequirement(f"{label('network')}: the {t} stage needs "
                                      f"{', '.join(missing)} as well")
+
+    def _validate_filter(self, label: Label) -> None:
+        """The filter keys: given only for a filter, complete and consistent for one."""
+        t = self.topology
+        given = {"f0": self.f0_hz, "response": self.response,
+                 "passband-ripple": self.passband_ripple_db, "bandwidth": self.bandwidth_hz}
+        if not self.is_filter:
+            for name, v in given.items():
+                if v is not None:
+                    raise BadRequirement(f"{label(name)}: applies to the filter stages only "
+                                         f"(the {t} stage has no corner frequency); omit it")
+            return
+        if self.f0_hz is None or not (self.f0_hz > 0 and math.isfinite(self.f0_hz)):
+            raise BadRequirement(f"{label('f0')}: missing; give the section's corner (or "
+                                 "centre) frequency, e.g. --f0 1kHz")
+        if t == "mfb-bandpass":
+            if self.response is not None or self.passband_ripple_db is not None:
+                name = "response" if self.response is not None else "passband-ripple"
+                raise BadRequirement(f"{label(name)}: a second-order band-pass has one shape, "
+                                     "set by its Q = f0/bandwidth; give --bandwidth instead")
+            if self.bandwidth_hz is None or not self.bandwidth_hz > 0:
+                raise BadRequirement(f"{label('bandwidth')}: missing; give the band-pass "
+                                     "section's -3 dB bandwidth, e.g. --bandwidth 100Hz")
+            q = self.f0_hz / self.bandwidth_hz
+            if self.gain >= 2 * q * q:
+                raise BadRequirement(
+                    f"{label('gain')}: {self.gain:g} V/V at the centre needs Q above "
+                    f"{math.sqrt(self.gain / 2):.4g}, but f0/bandwidth gives {q:.4g}; the "
+                    f"multiple-feedback band-pass reaches at most 2Q² = {2 * q * q:.4g}; "
+                    "lower --gain or narrow --bandwidth")
+            return
+        if self.bandwidth_hz is not None:
+            raise BadRequirement(f"{label('bandwidth')}: applies to mfb-bandpass only; a "
+                                 f"{t} section is set by --f0 and --response; omit it")
+        if self.response is not None and self.response not in RESPONSES:
+            raise BadRequirement(f"{label('response')}: {self.response!r} is not a response "
+                                 "shape; use one of " + ", ".join(RESPONSES))
+        if self.response == "chebyshev":
+            if self.passband_ripple_db is None:
+                raise BadRequirement(f"{label('passband-ripple')}: missing; a chebyshev "
+                                     "response needs its pass-band ripple, e.g. "
+                                     "--passband-ripple 0.5dB")
+        elif self.passband_ripple_db is not None:
+            raise BadRequirement(f"{label('passband-ripple')}: applies to --response "
+                                 "chebyshev only; omit it")
+        if t.startswith("vcvs-") and self.gain < 1:
+            raise BadRequirement(f"{label('gain')}: {self.gain:g} V/V is below 1, which a "
+                                 f"{t} section (a non-inverting amplifier) cannot make; use "
+                                 "mfb-lowpass, or a divider before the section")
 
     # -- construction from user text ---------------------------------------------------
     @classmethod
@@ -432,6 +517,9 @@ def _network(value: Any, name: str) -> dict[str, float]:
         key = str(k).lower()
         if isinstance(v, str) and v.strip().lower() in ("inf", "open"):
             out[key] = math.inf
+        elif key.startswith("c"):  # a filter's capacitor (c1, c2)
+            out[key] = _ranged("network-c", parse(v, "capacitance", f"{name}.{key}",
+                                                  allow_zero=False), f"{name}.{key}", v)
         else:
             r = parse(v, "resistance", f"{name}.{key}")
             out[key] = r if r == 0 else _ranged("network", r, f"{name}.{key}", v)
@@ -478,9 +566,11 @@ def _assume(value: Any, name: str) -> dict[str, float]:
 # an open rg makes a non-inverting stage a follower; a shorted rf makes it (or a
 # follower) unity gain; a shorted rp is a plain wire. Any other open or shorted leg
 # leaves a node floating or the gain at 0 or infinity.
-_OPEN_OK: dict[str, tuple[str, ...]] = {"non-inverting": ("rg",)}
+_OPEN_OK: dict[str, tuple[str, ...]] = {"non-inverting": ("rg",), "vcvs-lowpass": ("rg",),
+                                         "vcvs-highpass": ("rg",)}
 _SHORT_OK: dict[str, tuple[str, ...]] = {
     "inverting": ("rp",), "non-inverting": ("rf", "rp"), "follower": ("rf", "rp"),
+    "vcvs-lowpass": ("rf",), "vcvs-highpass": ("rf",),
 }
 
 
@@ -589,13 +679,43 @@ def _build(values: Mapping[str, tuple[Any, str]]) -> Requirement:
                                              name, raw)
         elif key == "ripple":
             kw["ripple"] = None if _optional(raw) else _ripple(raw, name)
+        elif key in ("f0", "bandwidth"):
+            kw[KEYS[key]] = _ranged(key, parse(raw, "frequency", name, allow_zero=False),
+                                    name, raw)
+        elif key == "response":
+            r = raw.strip().lower() if isinstance(raw, str) else ""
+            if r not in RESPONSES:
+                raise BadValue(name, Brief(raw), "is not a response shape; use one of "
+                               + ", ".join(RESPONSES))
+            kw["response"] = r
+        elif key == "passband-ripple":
+            kw["passband_ripple_db"] = _ranged(key, parse(raw, "decibel", name,
+                                                          allow_negative=False), name, raw)
+        elif key in ("cap-tolerance", "response-error"):
+            kw[KEYS[key]] = _ranged(key, parse(raw, "ratio", name), name, raw)
+        elif key == "cap-series":
+            from picker.design.series import parse_series
+
+            cs = parse_series(raw if isinstance(raw, str) else str(raw), name)
+            if cs not in ("E3", "E6", "E12", "E24"):
+                raise BadValue(name, Brief(raw), "is not a capacitor series; use E6, E12 "
+                               "or E24 (capacitors are not made in E48 and finer)")
+            kw["cap_series"] = cs
     if "rail_pos" not in kw:
         raise BadRequirement(f"{lab('rails')}: missing; give the supply rails, e.g. --rails ±12 "
                              "or --rails +5/0")
     if "topology" not in kw:
         raise BadRequirement(f"{lab('topology')}: missing; use one of " + ", ".join(kinds()))
+    filt = kw["topology"] in ("vcvs-lowpass", "vcvs-highpass", "mfb-lowpass", "mfb-bandpass")
+    if filt and "response" not in kw and kw["topology"] != "mfb-bandpass":
+        kw["response"] = "butterworth"
+    if filt and "f0_hz" not in kw:
+        raise BadRequirement(f"{lab('f0')}: missing; give the section's corner (or centre) "
+                             "frequency, e.g. --f0 1kHz")
+    if filt and "freq_hz" not in kw:
+        kw["freq_hz"] = 10 * kw["f0_hz"]  # the top of the band a section acts on
     if "gain" not in kw:
-        if kw["topology"] != "follower":
+        if kw["topology"] != "follower" and not filt:
             raise BadRequirement(f"{lab('gain')}: missing; give the signal gain, e.g. --gain 10 "
                                  "or --gain 20dB")
         kw["gain"] = 1.0

@@ -112,7 +112,12 @@ class Spec:
         stage's gains and budget, then what each applicable check asks."""
         from picker.checks import applicable
 
-        rows = stage_rows(self)
+        if self.requirement.is_filter:  # here: filterspec imports this module
+            from picker.design.filterspec import filter_rows
+
+            rows = filter_rows(self)
+        else:
+            rows = stage_rows(self)
         for check in applicable(self):
             rows += check.explain(self)
         return rows
@@ -244,6 +249,12 @@ def minimum_specs(req: Requirement) -> Spec:
         Gains, the budget split and the ``Minimums`` (SI units).
     """
     st = stage(req)
+    if req.is_filter:  # a second-order section (picker.design.filterspec)
+        from picker.design.filterspec import filter_specs  # here: it imports this module
+        from picker.stages.filterbase import FilterStage
+
+        assert isinstance(st, FilterStage)
+        return _with_left_out(filter_specs(req, st))
     m, f, vp, ref = req.margin, req.freq_hz, req.vout, req.ref
     budget, a0, rin, gbw = _split(req, st)
     cm_low, cm_high = kind(req.topology).input_levels(req, st)
@@ -276,6 +287,19 @@ def minimum_specs(req: Requirement) -> Spec:
         notes.append("network: " + ", ".join(f"{k} {fmt(v, 'resistance')}"
                                               for k, v in st.resistors.items()))
     return Spec(req, st, st.gain, st.noise_gain, m, minimum, budget, notes)
+
+
+def _with_left_out(s: Spec) -> Spec:
+    """``s`` with a note naming the checks that would apply but this stage type does not
+    support (a verdict must say what it leaves out)."""
+    from picker.checks import registered
+
+    left = [c.name for c in registered() if not s.stage.allows(c.name) and c.applies(s)
+            and s.stage.replaced_by(c.name) is None]
+    if left:
+        s.notes.append("not checked for this stage type (the model leaves them out): "
+                       + ", ".join(left))
+    return s
 
 
 def stage_rows(s: Spec) -> list[Explained]:

@@ -41,6 +41,8 @@ def percent(margin: float, failing: bool) -> str:
 
 def stage_line(req: Requirement) -> str:
     """One line naming the stage as asked."""
+    if req.is_filter:
+        return filter_line(req)
     gain = "" if req.topology == "follower" else (
         f" x{_g(req.gain)} ({_g(20 * math.log10(req.gain), 3)} dB)")
     load = "no load" if req.load_ohm is None else f"load {fmt(req.load_ohm, 'resistance')}"
@@ -51,6 +53,21 @@ def stage_line(req: Requirement) -> str:
             f"rails {req.rail_pos:+g}/{req.rail_neg:+g} V, ref {_g(req.ref)} V; {load}{src}; "
             f"gain error {fmt(req.gain_error, 'ratio')} with {fmt(req.tolerance, 'ratio')} resistors "
             f"({req.tolerance_rule}); {temp}; margin {req.margin:g}")
+
+
+def filter_line(req: Requirement) -> str:
+    """One line naming a filter stage as asked."""
+    shape = (f"bandwidth {fmt(req.bandwidth_hz or 0.0, 'frequency')}"
+             if req.bandwidth_hz is not None else str(req.response)
+             + (f" {_g(req.passband_ripple_db)} dB ripple" if req.passband_ripple_db else ""))
+    load = "no load" if req.load_ohm is None else f"load {fmt(req.load_ohm, 'resistance')}"
+    src = "" if req.source_ohm == 0 else f", source {fmt(req.source_ohm, 'resistance')}"
+    return (f"{req.topology} f0 {fmt(req.f0_hz or 0.0, 'frequency')}, {shape}, gain "
+            f"{_g(req.gain)}; {_g(req.vin)} Vpk in, signals up to "
+            f"{fmt(req.freq_hz, 'frequency')}; rails {req.rail_pos:+g}/{req.rail_neg:+g} V, "
+            f"ref {_g(req.ref)} V; {load}{src}; response error "
+            f"{fmt(req.response_error, 'ratio')}, {fmt(req.tolerance, 'ratio')} resistors, "
+            f"{fmt(req.cap_tolerance, 'ratio')} capacitors; margin {req.margin:g}")
 
 
 def cautions_block(cautions: list[str]) -> list[str]:
@@ -94,8 +111,9 @@ def spec_text(spec: Spec, explain: bool = False) -> str:
         rows = [[title, _value(getattr(mn, k), kind)] for k, title, kind in _SPEC_ROWS]
         rows.append(["input common-mode range", f"{_g(mn.cm_low_v)} V .. {_g(mn.cm_high_v)} V"])
         lines.append(tabulate(rows, headers=["minimum", "value"], disable_numparse=True))
-        budget = next(e for e in spec.explain if e.name == "gain_budget")
-        lines += ["", f"gain-error budget: {budget.numbers}"]
+        budget = next(e for e in spec.explain if e.name in ("gain_budget", "response_budget"))
+        lines += ["", f"{'gain-error' if budget.name == 'gain_budget' else 'response'} budget: "
+                      f"{budget.numbers}"]
     lines += ["", *[f"note: {n}" for n in spec.notes]]
     return "\n".join(lines)
 

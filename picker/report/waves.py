@@ -32,6 +32,7 @@ def network_text(req: Requirement) -> str:
     if not req.network:
         return f"ideal ratio from rf {fmt(req.rf_ohm, 'resistance')}"
     return ", ".join(f"{k} {'open' if math.isinf(v) else fmt(v, 'resistance')}"
+                     if not k.startswith("c") else f"{k} {fmt(v, 'capacitance')}"  # a filter's
                      for k, v in req.network.items())
 
 

@@ -4,7 +4,16 @@ A new stage type is one module (a ``StageType`` subclass; see picker.stages.base
 one ``register`` line below, or a ``register`` call from outside.
 """
 
-from picker.stages import difference, follower, inverting, non_inverting
+from picker.stages import (
+    difference,
+    follower,
+    inverting,
+    mfb_bandpass,
+    mfb_lowpass,
+    non_inverting,
+    vcvs_highpass,
+    vcvs_lowpass,
+)
 from picker.stages.base import Stage, StageType, parallel
 from picker.stages.registry import kind, kinds, register, stage, unregister
 
@@ -12,6 +21,10 @@ register(inverting.KIND)
 register(non_inverting.KIND)
 register(follower.KIND)
 register(difference.KIND)
+register(vcvs_lowpass.KIND)
+register(vcvs_highpass.KIND)
+register(mfb_lowpass.KIND)
+register(mfb_bandpass.KIND)
 
 __all__ = ["Stage", "StageType", "kind", "kinds", "parallel", "register", "stage",
            "unregister"]

@@ -76,6 +76,15 @@ class Stage:
     ideal_network: bool
     netlist: Netlist | None = None  # the stage's own circuit; None: the reduced one
 
+    def allows(self, check: str) -> bool:
+        """Whether the check named ``check`` holds for this stage (a filter stage narrows
+        it; see picker.stages.filterbase)."""
+        return True
+
+    def replaced_by(self, check: str) -> str | None:
+        """The check of this stage type that takes the place of ``check`` (None: none)."""
+        return None
+
     @property
     def circuit(self) -> Netlist:
         """The netlist the solver works on (input 1 V, output node ``o``)."""
