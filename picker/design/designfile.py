@@ -62,6 +62,16 @@ FIELDS: dict[str, tuple[str, str, str, str, str]] = {
     "cmrr": (" dB", "dB", "none", '"60dB"', "difference stage: least common-mode rejection"),
     "phase-margin": (" deg", "degrees", "45", '"45deg"', "least phase margin of the loop"),
     "ripple": ("", "amplitude@Hz", "none", '"50mVpp@100Hz"', "supply ripple on each rail"),
+    "f0": (" Hz", "Hz", "none: required for a filter", '"1kHz"',
+           "filter: corner (low-, high-pass) or centre (band-pass) frequency"),
+    "response": ("", "", "butterworth", '"butterworth"',
+                 "filter: butterworth, bessel or chebyshev"),
+    "passband-ripple": (" dB", "dB", "none", '"0.5dB"', "filter: chebyshev pass-band ripple"),
+    "bandwidth": (" Hz", "Hz", "none", '"200Hz"', "filter: -3 dB bandwidth of a band-pass"),
+    "cap-tolerance": ("", "ratio", "5%", '"5%"', "filter: capacitor tolerance"),
+    "cap-series": ("", "", "E12", '"E12"', "filter: capacitor series (E6, E12 or E24)"),
+    "response-error": ("", "ratio", "2%", '"2%"',
+                       "filter: how far the op-amp may move f0, Q and gain"),
 }
 
 #: The keys ``template()`` sets to an example stage (a stage needs them).

@@ -186,6 +186,12 @@ def test_template_lists_every_key_and_reads_as_a_stage(tmp_path: Path) -> None:
         stage = tomllib.loads(text) | tomllib.loads(line[2:])
         if key in ("vcm", "cmrr"):
             stage["topology"] = "difference"
+        if key in ("f0", "response", "passband-ripple", "bandwidth", "cap-tolerance",
+                   "cap-series", "response-error"):
+            stage["topology"] = "mfb-bandpass" if key == "bandwidth" else "vcvs-lowpass"
+            stage.setdefault("f0", "1kHz")
+            if key == "passband-ripple":
+                stage["response"] = "chebyshev"
         if key == "vout":
             del stage["vin"]
         if key == "network":
