@@ -177,36 +177,6 @@ def check_pairs(ctx: Context, a: npt.ArrayLike, b: npt.ArrayLike
     return m, [(x.name, x.mask) for x in lims]
 
 
-_FIX = {
-    "load": "a lighter load (--load), a part with more output current, or a smaller output",
-    "offset": "a looser --offset-max or a part with lower bias current",
-    "noise": "a looser --noise-max or a part with lower current noise",
-    "input_resistance": "a looser --gain-error or a part with higher input resistance",
-    "zin": "a lower --zin (the input leg is the source's load)",
-}
-
-
-def conflict_message(ctx: Context, series: str, checks: list[tuple[str, Mask]]) -> str:
-    """One line: which limits leave no admissible pair, and what would loosen them."""
-    r = ctx.req
-    alone = [n for n, mk in checks if not mk.any()]
-    pairs = [(n1, n2) for i, (n1, m1) in enumerate(checks) for n2, m2 in checks[i + 1:]
-             if not (m1 & m2).any()]
-    if alone:
-        names, what = alone, f"the {' and '.join(alone)} limit alone excludes"
-    elif pairs:
-        names = list(pairs[0])
-        what = f"the {names[0]} and {names[1]} limits together exclude"
-    else:
-        names = [n for n, _ in checks]
-        what = f"the {', '.join(names)} limits together exclude"
-    fixes = "; or ".join(_FIX[n] for n in names)
-    article = "an" if r.topology[0] in "aeiou" else "a"
-    return (f"network: no {series} network for {article} {r.topology} gain of {r.gain:g} V/V: {what} "
-            f"every pair of {fmt(nm.WINDOW_OHM[0], 'resistance')}..."
-            f"{fmt(nm.WINDOW_OHM[1], 'resistance')} resistors; try {fixes}")
-
-
 def describe(ctx: Context) -> list[str]:
     """The limits that applied, as sentences (and the ones that did not, and why)."""
     r, p = ctx.req, ctx.part
@@ -247,5 +217,5 @@ def describe(ctx: Context) -> list[str]:
     return out
 
 
-__all__ = ["Context", "Limit", "check_pairs", "conflict_message", "describe", "limits", "noise_v",
+__all__ = ["Context", "Limit", "check_pairs", "describe", "limits", "noise_v",
            "offset_v"]
