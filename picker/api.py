@@ -51,7 +51,7 @@ def requirement(design: str | Path | None = None, **options: Any) -> Requirement
 
 def built(req: Requirement, series: SeriesName = DEFAULT_SERIES) -> Requirement:
     """The stage as it would be built: ``req`` with its network designed from standard
-    values unless it names its own (``rf``, when given, is kept).
+    values unless it names its own (``rf`` and ``rg``, when given, are kept exactly).
 
     Parameters
     ----------
@@ -70,8 +70,7 @@ def built(req: Requirement, series: SeriesName = DEFAULT_SERIES) -> Requirement:
         from picker.design.filternet import with_filter_network
 
         return with_filter_network(req, series)
-    return with_designed_network(req, series=series,
-                                 feedback_ohm=req.rf_ohm if req.rf_pinned else None)
+    return with_designed_network(req, series=series)
 
 
 def spec(req: Requirement) -> Spec:
@@ -224,7 +223,8 @@ def why_side_by_side(req: Requirement, parts: list[str] | tuple[str, ...],
 
 
 def design_network(req: Requirement, part: Mapping[str, Any] | None = None, *,
-                   series: SeriesName = DEFAULT_SERIES, zin_ohm: float | None = None) -> Any:
+                   series: SeriesName = DEFAULT_SERIES, zin_ohm: float | None = None,
+                   check: bool = False) -> Any:
     """The stage's resistor network from standard values (``picker net``).
 
     Parameters
@@ -236,7 +236,10 @@ def design_network(req: Requirement, part: Mapping[str, Any] | None = None, *,
     series : str
         IEC 60063 series (E3 .. E192).
     zin_ohm : float, optional
-        Smallest input impedance the source may see, Ω.
+        Smallest input impedance the source may see, Ω (default ``req.zin_ohm``).
+    check : bool
+        Analyse the network as built: BadRequirement unless it is given in full
+        (``rf`` and ``rg``, or ``network``).
 
     Returns
     -------
@@ -244,13 +247,22 @@ def design_network(req: Requirement, part: Mapping[str, Any] | None = None, *,
         ``as_json()`` is ``picker net --json``.
     """
     from picker.design.network import design_network as design
+    from picker.errors import BadRequirement
+    from picker.stages import kind
 
     if req.is_filter:  # picker.design.filternet.FilterNetwork
         from picker.design.filternet import design_filter
 
         return design_filter(req, series)
-    return design(req, part, series=series, tolerance=req.tolerance, zin_ohm=zin_ohm,
-                  feedback_ohm=req.rf_ohm if req.rf_pinned else None)
+    full = req.network is not None or (req.rf_pinned and req.rg_ohm is not None) or (
+        req.topology == "follower" and req.rf_pinned)
+    if check and not full and kind(req.topology).pair_names is not None:
+        missing = " and ".join(o for o, given in (("--rf", req.rf_pinned),
+                                                  ("--rg", req.rg_ohm is not None)) if not given)
+        raise BadRequirement(f"--check: analyses a network given in full; give {missing} "
+                             "(or a design file's network), or drop --check to design it")
+
+    return design(req, part, series=series, zin_ohm=zin_ohm)
 
 
 def part_frame(store: Any, part: str, columns: tuple[str, ...]) -> Any:

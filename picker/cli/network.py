@@ -6,7 +6,7 @@ from typing import Any
 
 import click
 
-from picker.cli.params import QuantityParam, db_option, open_store
+from picker.cli.params import db_option, open_store
 from picker.cli.reqopts import (
     build_requirement,
     requirement_options,
@@ -34,23 +34,26 @@ class SeriesParam(click.ParamType):
 @requirement_options
 @click.option("--series", type=SeriesParam(), default="E24", show_default=True,
               help="IEC 60063 series of the resistors: E3 E6 E12 E24 E48 E96 E192")
-@click.option("--zin", type=QuantityParam("resistance", positive=True),
-              help="smallest input impedance the source may see (inverting, difference)")
+@click.option("--check", is_flag=True,
+              help="analyse the network given in full (--rf and --rg, or the design file's "
+              "network) as built: gain, error, worst case, Monte Carlo, input impedance, power")
 @click.option("--part", metavar="LABEL",
               help="take the limits (output current, bias and noise currents, Rin, A0, "
               "GBW) from this part and show its exact closed-loop gain")
 @click.option("--json", "as_json", is_flag=True, help="JSON on stdout (SI base units)")
 @save_option
 @db_option
-def net(stage: dict[str, Any], series: str, zin: float | None,
+def net(stage: dict[str, Any], series: str, check: bool,
         part: str | None, as_json: bool, save: str | None, db: str | None) -> None:
     """Design the stage's resistor network from standard values.
 
-    Searches every pair of the series' values inside the limits (output load,
-    bias-current offset, noise and input-resistance shares of their budgets, --zin)
-    for the smallest gain error, lower resistances winning ties, then shows the worst
-    case and a Monte Carlo spread for the resistor tolerance. --rf pins the feedback
-    resistor. Example:
+    Searches every pair of the series' values in the 1 kΩ..1 MΩ window inside the
+    limits (output load, bias-current offset, noise and input-resistance shares of
+    their budgets, --zin, default max(10 kΩ, 10 x source)); gain error counts down to
+    what the tolerance swamps, then the lowest impedance with common values wins. Shows
+    the worst case and a Monte Carlo spread for the resistor tolerance, the input
+    impedance and each resistor's power at the peak. --rf and --rg (--rin) are kept
+    exactly; with both, or with --check, the network is analysed as built. Example:
 
     \b
         picker net --topology inverting --gain 4.7 --vin 1V --freq 20kHz --rails ±12
@@ -67,7 +70,7 @@ def net(stage: dict[str, Any], series: str, zin: float | None,
         return
     row = open_store(db).get(part) if part else None
     network = api.design_network(req, row, series=series,  # type: ignore[arg-type]
-                                 zin_ohm=zin)
+                                 check=check)
     if as_json:
         click.echo(to_json(network.as_json()))
         for c in req.cautions:

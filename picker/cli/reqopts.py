@@ -54,7 +54,15 @@ _OPTIONS: tuple[tuple[str, str, Any, str], ...] = (
     ("margin", "--margin", click.FloatRange(min=1.0),
      "design margin: needs x margin, allowed errors / margin (default 1.25; 1 = bare minimums)"),
     ("rf", "--rf", QuantityParam("resistance", positive=True),
-     "pin the feedback resistor of the E-series network (default: designed, see picker net)"),
+     "the feedback resistor as built, kept exactly (default: designed, see picker net)"),
+    ("rg", "--rg", QuantityParam("resistance", positive=True),
+     "the gain leg as built, kept exactly: the inverting stage's input resistor, the "
+     "non-inverting stage's ground leg, r1 = r3 of the difference stage (default: designed)"),
+    ("rin", "--rin", QuantityParam("resistance", positive=True),
+     "inverting stage: its input resistor as built (another name for --rg)"),
+    ("zin", "--zin", QuantityParam("resistance", positive=True),
+     "least input impedance the source may see, inverting or difference (default: "
+     "max(10 kΩ, 10 x --source))"),
     ("cload", "--cload", QuantityParam("capacitance"),
      "capacitance at the output, e.g. 1nF (cable, ADC input; default 0)"),
     ("vcm", "--vcm", str,

@@ -1,10 +1,10 @@
 """The electrical limits a resistor network must keep, as masks over candidate pairs.
 
-- load: the network and the load together may not ask more than the part's output
-  current at the peak output, with the design margin: Vo,pk·(1/RL + G_net)·m <= Iout.
-  Without the part's output current, common practice: total load >= 1 kΩ. The network
-  alone always loads the output with 1 kΩ or more (common practice), so a part with
-  current to spare does not pull the design down to tens of ohms.
+- window: every designed resistor within netmodel.WINDOW_OHM (about 1 kΩ .. 1 MΩ).
+- load: at the peak output the network draws at most NET_LOAD_SHARE (10%) of the
+  load's current, or NET_CURRENT_A (1 mA) when that is larger (no load or a light
+  one); with the part's output current known, network and load together also stay
+  within Iout over the design margin: Vo,pk·(1/RL + G_net)·m <= Iout.
 - offset: bias currents through the network (netmodel.bias_offset, with the better of
   no compensation and an ideal compensation resistor) within OFFSET_SHARE of
   --offset-max over the margin.
@@ -13,8 +13,11 @@
   NOISE_SHARE of --noise-max over the margin (resistors at the hottest ambient).
 - input_resistance: the extra gain error rf/(Rin·A0) within RIN_SHARE of --gain-error
   over the margin.
-- zin: the input resistor at least --zin (inverting, difference).
+- zin: the input resistor (inverting rg, difference r1) at least --zin, by default
+  max(10 kΩ, 10 x the source resistance).
 A limit whose inputs are unknown (no part, no budget) does not apply and is listed so.
+Each limit keeps its metric, so an infeasible design can say how far to relax it
+(picker.design.netfix).
 """
 
 from __future__ import annotations
@@ -40,7 +43,24 @@ class Context:
 
     req: Requirement
     part: nm.PartData
-    zin_ohm: float | None = None
+    zin_ohm: float | None = None  # overrides req.zin_ohm
+
+    @property
+    def zin_floor(self) -> float | None:
+        """The least input resistor, Ω (inverting and difference stages; else None)."""
+        r = self.req
+        if r.topology not in ("inverting", "difference"):
+            return None
+        given = self.zin_ohm if self.zin_ohm is not None else r.zin_ohm
+        if given is not None:
+            return given
+        if r.rg_ohm is not None:  # the input resistor was given: it is the input impedance
+            return None
+        return max(nm.ZIN_MIN_OHM, nm.ZIN_SOURCE_RATIO * r.source_ohm)
+
+    @property
+    def zin_given(self) -> bool:
+        return self.zin_ohm is not None or self.req.zin_ohm is not None
 
     @property
     def offset_budget(self) -> float | None:
@@ -65,88 +85,96 @@ class Context:
         """Largest output current per volt of output the network may draw, and why."""
         r, p = self.req, self.part
         g_load = 0.0 if r.load_ohm is None else 1.0 / r.load_ohm
+        g_share = max(nm.NET_LOAD_SHARE * g_load, nm.NET_CURRENT_A / r.vout)
+        text = (f"network load: at most {nm.NET_LOAD_SHARE:.0%} of the load's current or "
+                f"{fmt(nm.NET_CURRENT_A, 'current')} at the {fmt(r.vout, 'voltage')} peak, "
+                f"whichever is larger (common practice): network >= "
+                f"{fmt(1 / g_share, 'resistance')}")
+        if p.iout_a is None:
+            return g_share, text
+        g_part = p.iout_a / (r.margin * r.vout) - g_load
         load = "" if r.load_ohm is None else f" with the {fmt(r.load_ohm, 'resistance')} load"
-        if p.iout_a is not None:
-            g_max = p.iout_a / (r.margin * r.vout)
-            text = (f"output current: {fmt(r.vout, 'voltage')}pk into network{load}, times "
-                    f"margin {r.margin:g}, within Iout {fmt(p.iout_a, 'current')} of "
-                    f"{p.label or 'the part'} (total load >= {fmt(1 / g_max, 'resistance')})")
-        else:
-            g_max = 1.0 / nm.MIN_LOAD_OHM
-            text = (f"output load: network{load} >= {fmt(nm.MIN_LOAD_OHM, 'resistance')} in "
-                    "total (common practice; the part's output current is not known)")
-        g_net = 1.0 / nm.MIN_LOAD_OHM
-        if g_max - g_load <= 0:
-            return g_net, (text + "; the load alone exceeds it, so only the network's own "
-                           f">= {fmt(nm.MIN_LOAD_OHM, 'resistance')} applies (the load is "
-                           "the part's problem)")
-        if g_max - g_load > g_net:
-            text += (f"; the network alone >= {fmt(nm.MIN_LOAD_OHM, 'resistance')} (common "
-                     "practice)")
-        return min(g_max - g_load, g_net), text
+        if g_part <= 0:
+            return g_share, (text + f"; the load alone asks more than Iout "
+                             f"{fmt(p.iout_a, 'current')} of {p.label or 'the part'} over "
+                             f"margin {r.margin:g} (the output_current check says so)")
+        if g_part < g_share:
+            text += (f"; output current: {fmt(r.vout, 'voltage')}pk into network{load}, times "
+                     f"margin {r.margin:g}, within Iout {fmt(p.iout_a, 'current')} of "
+                     f"{p.label or 'the part'} (network >= {fmt(1 / g_part, 'resistance')})")
+        return min(g_share, g_part), text
+
+
+@dataclass(frozen=True)
+class Limit:
+    """One limit over the candidate pairs: its metric, bound and sense."""
+
+    name: str  # load, offset, noise, input_resistance, zin
+    metric: Array  # per pair: S/V, V, V rms, ratio, Ω
+    bound: float
+    at_most: bool = True  # metric <= bound (else metric >= bound)
+
+    @property
+    def mask(self) -> Mask:
+        if self.at_most:
+            return self.metric <= self.bound * _SLACK  # type: ignore[no-any-return]
+        return self.metric >= self.bound / _SLACK  # type: ignore[no-any-return]
+
+
+def limits(ctx: Context, a: npt.ArrayLike, b: npt.ArrayLike) -> tuple[nm.PairModel, list[Limit]]:
+    """The pair model and every applicable limit over the pairs (a, b)."""
+    r, p = ctx.req, ctx.part
+    a = np.asarray(a, float)
+    b = np.asarray(b, float)
+    m = nm.pair_model(r.topology, r.source_ohm, a, b)
+    shape = m.gain.shape
+    out: list[Limit] = [Limit("load", np.broadcast_to(m.out_siemens, shape),
+                              ctx.out_siemens_max()[0])]
+    budget = ctx.offset_budget
+    if budget is not None:
+        out.append(Limit("offset", np.broadcast_to(offset_v(ctx, m), shape), budget))
+    nb = ctx.noise_budget
+    if nb is not None:
+        out.append(Limit("noise", np.broadcast_to(noise_v(ctx, m), shape), nb))
+    rb = ctx.rin_budget
+    if rb is not None:
+        assert p.rin_ohm is not None and p.aol_v_per_v is not None
+        out.append(Limit("input_resistance", np.broadcast_to(
+            m.rin_ohm / (p.rin_ohm * p.aol_v_per_v), shape), rb))
+    zf = ctx.zin_floor
+    if zf is not None:
+        out.append(Limit("zin", np.broadcast_to(b, shape), zf, at_most=False))
+    return m, out
+
+
+def offset_v(ctx: Context, m: nm.PairModel) -> Array:
+    """Output offset from the part's bias currents through the network, V (the better of
+    no compensation and an ideal compensation resistor); 0 without the part's Ib."""
+    p = ctx.part
+    if p.ib_a is None:
+        return np.zeros_like(m.gain)
+    ib = p.ib_a
+    ios = ib if p.ios_a is None else p.ios_a
+    unc = nm.bias_offset(m.noise_gain, m.r_plus, m.r_minus, ib, ios)
+    comp = np.where(m.r_minus >= m.r_plus, m.noise_gain * ios * m.r_minus, unc)
+    return np.minimum(unc, comp)  # type: ignore[no-any-return]
+
+
+def noise_v(ctx: Context, m: nm.PairModel) -> Array:
+    """The network's output noise, V rms: thermal noise of the resistors (at the hottest
+    ambient) and the part's current noise through them, over the noise bandwidth."""
+    r, p = ctx.req, ctx.part
+    bw = nm.noise_bandwidth_hz(m.noise_gain, p.gbw_hz, r.freq_hz, r.gain_error / r.margin)
+    i_n = p.in_a_per_rthz or 0.0
+    density2 = 4 * nm.K_B * r.temp_max_k * m.noise_ohm + (i_n * m.inoise_ohm) ** 2
+    return np.sqrt(density2 * bw)  # type: ignore[no-any-return]
 
 
 def check_pairs(ctx: Context, a: npt.ArrayLike, b: npt.ArrayLike
                 ) -> tuple[nm.PairModel, list[tuple[str, Mask]]]:
     """The pair model and one boolean mask per applicable limit (True = within)."""
-    r, p = ctx.req, ctx.part
-    a = np.asarray(a, float)
-    b = np.asarray(b, float)
-    m = nm.pair_model(r.topology, r.source_ohm, a, b)
-    out: list[tuple[str, Mask]] = []
-    g_max, _ = ctx.out_siemens_max()
-    out.append(("load", m.out_siemens <= g_max * _SLACK))
-    budget = ctx.offset_budget
-    if budget is not None:
-        ib = p.ib_a or 0.0
-        ios = ib if p.ios_a is None else p.ios_a
-        unc = nm.bias_offset(m.noise_gain, m.r_plus, m.r_minus, ib, ios)
-        can_comp = m.r_minus >= m.r_plus
-        comp = np.where(can_comp, m.noise_gain * ios * m.r_minus, unc)
-        out.append(("offset", np.minimum(unc, comp) <= budget * _SLACK))
-    nb = ctx.noise_budget
-    if nb is not None:
-        bw = nm.noise_bandwidth_hz(m.noise_gain, p.gbw_hz, r.freq_hz, r.gain_error / r.margin)
-        i_n = p.in_a_per_rthz or 0.0
-        density2 = 4 * nm.K_B * r.temp_max_k * m.noise_ohm + (i_n * m.inoise_ohm) ** 2
-        out.append(("noise", np.sqrt(density2 * bw) <= nb * _SLACK))
-    rb = ctx.rin_budget
-    if rb is not None:
-        assert p.rin_ohm is not None and p.aol_v_per_v is not None
-        out.append(("input_resistance", m.rin_ohm / (p.rin_ohm * p.aol_v_per_v) <= rb * _SLACK))
-    if ctx.zin_ohm is not None:
-        out.append(("zin", np.broadcast_to(b >= ctx.zin_ohm / _SLACK, m.gain.shape)))
-    return m, out
-
-
-_FIX = {
-    "load": "a lighter load (--load), a part with more output current, or a smaller output",
-    "offset": "a looser --offset-max or a part with lower bias current",
-    "noise": "a looser --noise-max or a part with lower current noise",
-    "input_resistance": "a looser --gain-error or a part with higher input resistance",
-    "zin": "a lower --zin",
-}
-
-
-def conflict_message(ctx: Context, series: str, checks: list[tuple[str, Mask]]) -> str:
-    """One line: which limits leave no admissible pair, and what would loosen them."""
-    r = ctx.req
-    alone = [n for n, mk in checks if not mk.any()]
-    pairs = [(n1, n2) for i, (n1, m1) in enumerate(checks) for n2, m2 in checks[i + 1:]
-             if not (m1 & m2).any()]
-    if alone:
-        names, what = alone, f"the {' and '.join(alone)} limit alone excludes"
-    elif pairs:
-        names = list(pairs[0])
-        what = f"the {names[0]} and {names[1]} limits together exclude"
-    else:
-        names = [n for n, _ in checks]
-        what = f"the {', '.join(names)} limits together exclude"
-    fixes = "; or ".join(_FIX[n] for n in names)
-    article = "an" if r.topology[0] in "aeiou" else "a"
-    return (f"network: no {series} network for {article} {r.topology} gain of {r.gain:g} V/V: {what} "
-            f"every pair of {fmt(nm.WINDOW_OHM[0], 'resistance')}..."
-            f"{fmt(nm.WINDOW_OHM[1], 'resistance')} resistors; try {fixes}")
+    m, lims = limits(ctx, a, b)
+    return m, [(x.name, x.mask) for x in lims]
 
 
 def describe(ctx: Context) -> list[str]:
@@ -177,8 +205,11 @@ def describe(ctx: Context) -> list[str]:
                    f"gain-error budget over margin = {fmt(rb, 'ratio')}")
     else:
         skipped.append("input resistance (Rin or A0 not known)")
-    if ctx.zin_ohm is not None:
-        out.append(f"input impedance: input resistor >= --zin {fmt(ctx.zin_ohm, 'resistance')}")
+    zf = ctx.zin_floor
+    if zf is not None:
+        how = ("--zin" if ctx.zin_given else f"default max({fmt(nm.ZIN_MIN_OHM, 'resistance')}, "
+               f"{nm.ZIN_SOURCE_RATIO:g} x source)")
+        out.append(f"input impedance: input resistor >= {fmt(zf, 'resistance')} ({how})")
     out.append(f"window: {fmt(nm.WINDOW_OHM[0], 'resistance')}..."
                f"{fmt(nm.WINDOW_OHM[1], 'resistance')} per resistor (common practice)")
     if skipped:
@@ -186,4 +217,5 @@ def describe(ctx: Context) -> list[str]:
     return out
 
 
-__all__ = ["Context", "check_pairs", "conflict_message", "describe"]
+__all__ = ["Context", "Limit", "check_pairs", "describe", "limits", "noise_v",
+           "offset_v"]

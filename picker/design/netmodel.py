@@ -30,12 +30,19 @@ Array = npt.NDArray[np.float64]
 
 #: Boltzmann constant, J/K (CODATA; exact since the 2019 SI).
 K_B = 1.380649e-23
-#: Search window for one resistor, Ω (common practice: below ~10 Ω wiring and contact
-#: resistance matter, above ~10 MΩ leakage and stray capacitance do).
-WINDOW_OHM = (10.0, 10e6)
-#: Minimum total load on the output when the part's output current is not known, Ω
-#: (common practice: keep an op-amp's total load at 1 kΩ or more).
-MIN_LOAD_OHM = 1e3
+#: Window for every resistor picker designs, Ω (common practice, no source: below
+#: about 1 kΩ a network loads the output and the source; above about 1 MΩ leakage,
+#: stray capacitance, bias currents and thermal noise take over).
+WINDOW_OHM = (1e3, 1e6)
+#: The network's share of the output current (common practice, no source): at the
+#: peak it draws at most NET_LOAD_SHARE of the load's current, or NET_CURRENT_A when
+#: that is larger (no load, or a light one).
+NET_LOAD_SHARE = 0.1
+NET_CURRENT_A = 1e-3
+#: Default least input impedance of an inverting or difference stage (common practice,
+#: no source): max(ZIN_MIN_OHM, ZIN_SOURCE_RATIO x the source resistance).
+ZIN_MIN_OHM = 10e3
+ZIN_SOURCE_RATIO = 10.0
 #: Shares of the budgets the network may use (the rest is left to the op-amp itself).
 OFFSET_SHARE = 0.5  # of --offset-max: bias currents through the network
 NOISE_SHARE = 0.5  # of --noise-max: resistor thermal noise and current noise
@@ -168,6 +175,7 @@ class PartData:
                    num("rout_ohm"))
 
 
-__all__ = ["K_B", "MIN_LOAD_OHM", "NOISE_SHARE", "OFFSET_SHARE", "PairModel", "PartData",
+__all__ = ["K_B", "NET_CURRENT_A", "NET_LOAD_SHARE", "ZIN_MIN_OHM",
+           "ZIN_SOURCE_RATIO", "NOISE_SHARE", "OFFSET_SHARE", "PairModel", "PartData",
            "RATIO_SHARE", "RIN_SHARE", "WINDOW_OHM", "bias_offset", "noise_bandwidth_hz",
            "pair_model", "pair_resistors"]

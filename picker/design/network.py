@@ -1,40 +1,45 @@
 """Design a stage's resistor network from standard E-series values (IEC 60063).
 
 design_network(req, part) searches every pair of standard values inside the window
-at once (numpy broadcasting, no Python loop over values): (rf, rg) for the inverting
-and non-inverting stages, (r2, r1) with matched ratios r4 = r2, r3 = r1 for the
-difference stage. A pair is admissible when it keeps the limits of
-picker.design.netlimits (output load, bias-current offset, noise and input-resistance
-shares of their budgets, minimum input impedance); the optimum is the admissible pair
-with the smallest gain error, ties (within 1e-9) going to the lower resistances, which
-keep noise and offset lowest. When no single value meets the ratio share of the
-gain-error budget, two standard resistors in series or parallel are tried for the leg
-(the lowest feedback resistor whose leg meets the share, else the closest).
-The result carries the resistor tolerance analysis of picker.design.tolerance.
+(about 1 kΩ .. 1 MΩ, netmodel.WINDOW_OHM) at once (numpy broadcasting, no Python loop
+over values): (rf, rg) for the inverting and non-inverting stages, (r2, r1) with matched
+ratios r4 = r2, r3 = r1 for the difference stage. A pair is admissible when it keeps the
+limits of picker.design.netlimits (output load, bias-current offset, noise and
+input-resistance shares of their budgets, least input impedance); the choice among the
+admissible pairs follows picker.design.netchoice: gain error counted down to what the
+tolerance swamps, then the lowest impedance level with the values engineers keep, the
+shares of the noise and offset budgets and the source's share of the gain. When no
+single value meets the ratio share of the gain-error budget, two standard resistors in
+series or parallel are tried for the leg. When nothing keeps the limits and the nominal
+gain budget, BadRequirement names the blocking limit and the nearest relaxation that
+fits (picker.design.netfix). Values given with --rf/--rg are kept exactly, never
+snapped. The result carries the resistor tolerance analysis of picker.design.tolerance.
 """
 
 from __future__ import annotations
 
 import math
-from collections.abc import Mapping
-from dataclasses import dataclass, field
+from collections.abc import Callable, Mapping
+from dataclasses import dataclass, field, replace
 from typing import Any
 
 import numpy as np
 import numpy.typing as npt
 
 from picker.circuit.opamp import closed_loop_gain
+from picker.design import netchoice as nc
+from picker.design import netfix
 from picker.design import netmodel as nm
 from picker.design import series as es
-from picker.design.netlimits import Context, check_pairs, conflict_message, describe
+from picker.design.netlimits import Context, check_pairs, describe, limits, noise_v, offset_v
 from picker.design.requirement import Requirement
 from picker.design.tolerance import (
     MC_SEED,
+    STANDARD_TOLERANCES,
     How,
     Slot,
     monte_carlo,
     p99_error,
-    tolerance_needed,
     worst_case,
 )
 from picker.errors import BadRequirement
@@ -65,6 +70,12 @@ class Network:
     network: Mapping[str, float] = field(hash=False)  # for Requirement.network
     limits: tuple[str, ...] = ()
     notes: tuple[str, ...] = ()
+    why: str = ""  # one line that explains the choice
+    input_ohm: float | None = None  # what the source sees (None: the op-amp's own input)
+    source_share: float | None = None  # Rs/(Rs + input leg) when the source is in the gain
+    network_current_a: float = 0.0  # drawn from the output at the peak
+    power_w: Mapping[str, float] = field(default_factory=dict, hash=False)  # at the peak
+    given: tuple[str, ...] = ()  # positions kept exactly as given (not designed)
 
     @property
     def gain_error(self) -> float:
@@ -89,6 +100,12 @@ class Network:
             "gain_error": self.gain_error,
             "worst_case": [self.worst_case[0], self.worst_case[1]],
             "mc_p99_error": self.mc_p99_error,
+            "why": self.why,
+            "input_ohm": self.input_ohm,
+            "source_share": self.source_share,
+            "network_current_a": self.network_current_a,
+            "power_w": dict(self.power_w),
+            "given": list(self.given),
         }
         combined = {s.name: {"how": s.how, "parts": list(s.parts)}
                     for s in self.slots if s.how != "single"}
@@ -98,33 +115,74 @@ class Network:
 
 
 def design_network(req: Requirement, part: Mapping[str, Any] | nm.PartData | None = None, *,
-                   series: es.SeriesName = "E24", tolerance: float = 0.01,
+                   series: es.SeriesName = "E24", tolerance: float | None = None,
                    zin_ohm: float | None = None, feedback_ohm: float | None = None,
                    seed: int = MC_SEED) -> Network:
     """The best standard-value network for ``req`` (around ``part``, if given).
 
-    ``part`` is a parts-table row (mapping or pandas Series) or PartData; without it
-    the limits fall back to common practice (total output load >= 1 kΩ). A network
-    given in the requirement is analysed as it is instead of designed.
-    ``feedback_ohm`` pins the feedback resistor (rf; r2 and r4 of the difference stage)
-    to the series value nearest to it; only the leg is searched then.
+    Parameters
+    ----------
+    req : Requirement
+        The stage. Its ``rf_ohm`` (when pinned) and ``rg_ohm`` are kept exactly, never
+        snapped to a series; with both, or with a ``network``, the network is analysed
+        as it is instead of designed.
+    part : mapping or PartData, optional
+        A parts-table row: its output current, bias and noise currents, Rin, A0 and GBW
+        become limits of the search (netlimits) and its bias current enters the score.
+    series : str
+        IEC 60063 series of the legs picker designs.
+    tolerance : float, optional
+        Resistor tolerance (default ``req.tolerance``).
+    zin_ohm : float, optional
+        Least input impedance, Ω (default ``req.zin_ohm``, else max(10 kΩ, 10·Rs)).
+    feedback_ohm : float, optional
+        The feedback resistor as built, Ω (default: ``req.rf_ohm`` when pinned).
+
+    Returns
+    -------
+    Network
+        BadRequirement (one line, the blocking limit and the nearest relaxation that
+        fits) when no network keeps the limits and the nominal gain budget.
     """
-    if not 0 <= tolerance < 0.5:
-        raise BadRequirement(f"--tolerance: {tolerance:g} is not a resistor tolerance; "
-                             "write e.g. 1% or 0.1%")
+    if tolerance is not None:
+        if not 0 <= tolerance < 0.5:
+            raise BadRequirement(f"--tolerance: {tolerance:g} is not a resistor tolerance; "
+                                 "write e.g. 1% or 0.1%")
+        req = req.with_changes(tolerance=tolerance)
     pd = part if isinstance(part, nm.PartData) else nm.PartData.from_row(part)
-    ctx = Context(req, pd, zin_ohm)
+    if zin_ohm is not None:
+        req = req.with_changes(zin_ohm=zin_ohm)
+    if feedback_ohm is not None:
+        req = req.with_changes(rf_ohm=feedback_ohm, rf_pinned=True)
+    ctx = Context(req, pd)
+    slots, net, notes, given = _choose(req, ctx, series)
+
+    def redo(t: float) -> Network:
+        r2 = req.with_changes(tolerance=t)
+        c2 = Context(r2, pd)
+        s2, n2, _, _ = _choose(r2, c2, series)
+        return _finish(r2, c2, series, s2, n2, [], seed, given, mc=False)
+
+    return _finish(req, ctx, series, slots, net, notes, seed, given, redo=redo)
+
+
+def _choose(req: Requirement, ctx: Context, series: es.SeriesName
+            ) -> tuple[list[Slot], dict[str, float], list[str], tuple[str, ...]]:
+    """(slots, network, notes, names kept as given) of the chosen network."""
     t = req.topology
-    if zin_ohm is not None and t not in ("inverting", "difference"):
-        raise BadRequirement(f"--zin: a {t} stage's input impedance is the op-amp's own, "
-                             "not set by resistors; use --zin with inverting or difference")
-    if req.network is not None:
-        slots, notes = _given(req, series)
-        return _finish(req, ctx, series, tolerance, slots, dict(req.network), notes, seed)
+    given_net = req.network
+    if given_net is None and req.rf_pinned and req.rg_ohm is not None:
+        given_net = kind(t).pair_network(req.rf_ohm, req.rg_ohm)
+    if given_net is not None:
+        net = {k: float(v) for k, v in given_net.items()}
+        slots = [Slot.single(k, v) for k, v in net.items() if 0 < v < math.inf]
+        return (slots, net, ["The network was given; it is analysed as built, not designed."],
+                tuple(s.name for s in slots))
     if t == "follower" or (t == "non-inverting" and req.gain == 1):
-        slots, net, notes = _follower(req, pd, series)
-        return _finish(req, ctx, series, tolerance, slots, net, notes, seed)
-    return _design_pair(req, ctx, series, tolerance, seed, feedback_ohm)
+        slots, net, notes = _follower(req, ctx.part, series)
+        kept = ("rf",) if req.rf_pinned and "rf" in net and net["rf"] > 0 else ()
+        return slots, net, notes, kept
+    return _design_pair(req, ctx, series)
 
 
 def _pair_names(t: str) -> tuple[str, str]:
@@ -134,30 +192,57 @@ def _pair_names(t: str) -> tuple[str, str]:
     return names
 
 
-def _design_pair(req: Requirement, ctx: Context, series: es.SeriesName, tol: float,
-                 seed: int, feedback_ohm: float | None) -> Network:
+def _design_pair(req: Requirement, ctx: Context, series: es.SeriesName
+                 ) -> tuple[list[Slot], dict[str, float], list[str], tuple[str, ...]]:
     t, gain = req.topology, req.gain
     v = es.values(series, *nm.WINDOW_OHM)
-    fv = v if feedback_ohm is None else np.array([es.nearest(feedback_ohm, series)])
-    a, b = fv[:, None], v[None, :]
-    model, checks = check_pairs(ctx, a, b)
-    ok = np.logical_and.reduce([m for _, m in checks]) if checks else np.ones(model.gain.shape,
-                                                                              bool)
-    ok = np.broadcast_to(ok, model.gain.shape)
-    if not ok.any():
-        raise BadRequirement(conflict_message(ctx, series, checks))
-    err = np.where(ok, np.abs(model.gain / gain - 1), np.inf)
-    i, j = np.unravel_index(_first_best(err), err.shape)
     fa, fb = _pair_names(t)
-    best = (float(fv[i]), Slot.single(fb, float(v[j])))
-    best_err = float(err[i, j])
+    fv = np.array([req.rf_ohm]) if req.rf_pinned else v
+    lv = np.array([req.rg_ohm]) if req.rg_ohm is not None else v
+    kept: tuple[str, ...] = (fa,) if req.rf_pinned else (fb,) if req.rg_ohm is not None else ()
+    a, b = fv[:, None], lv[None, :]
+    model, lims = limits(ctx, a, b)
+    ok = np.logical_and.reduce([x.mask for x in lims]) if lims else np.ones(model.gain.shape,
+                                                                            bool)
+    ok = np.broadcast_to(ok, model.gain.shape)
+    err_all = np.abs(model.gain / gain - 1)
+    allowed = req.gain_error / req.margin
+    share = nm.RATIO_SHARE * allowed
+
+    def fail() -> BadRequirement:
+        def finer() -> str | None:
+            for name in es.SERIES[es.SERIES.index(series) + 1:]:
+                try:
+                    _design_pair(req, ctx, name)
+                except BadRequirement:
+                    continue
+                return name
+            return None
+
+        gain_ok = np.broadcast_to(err_all <= allowed * (1 + 1e-12), model.gain.shape)
+        if req.rg_ohm is not None:
+            ideal = np.array([np.inf])
+        else:
+            ideal = fv / (gain - 1) if t == "non-inverting" else fv / gain - req.source_ohm
+        return BadRequirement(netfix.message(ctx, series, lims, gain_ok,
+                                             finer if not kept else lambda: None, ideal))
+
+    if not ok.any():
+        raise fail()
+    floor = nc.error_floor(req)
+    errq = np.where(ok, np.maximum(err_all, floor), np.inf)
+    cand = errq <= float(errq.min()) + TIE
+    sc = np.where(cand, nc.score(ctx, model, lims, np.broadcast_to(a, model.gain.shape),
+                                 np.broadcast_to(b, model.gain.shape)), np.inf)
+    i, j = np.unravel_index(int(np.argmin(sc)), sc.shape)
+    best = (float(fv[i]), Slot.single(fb, float(lv[j])))
+    best_err = float(err_all[i, j])
     notes: list[str] = []
-    if feedback_ohm is not None:
-        notes.append(f"{fa.capitalize()} pinned at {fmt(fv[0], 'resistance', 4)} ({series} "
-                     f"nearest to {fmt(feedback_ohm, 'resistance', 4)}); only the leg was "
-                     "searched.")
-    share = nm.RATIO_SHARE * req.gain_error / req.margin
-    if best_err > share:
+    if kept:
+        notes.append(f"{kept[0].capitalize()} kept as given "
+                     f"({fmt(float(fv[0] if req.rf_pinned else lv[0]), 'resistance', 4)}); "
+                     f"only the {fb if req.rf_pinned else fa} was designed ({series}).")
+    if best_err > share and req.rg_ohm is None:
         combo = _best_combo(ctx, fv, v, share)
         if combo is not None and combo[2] < best_err - TIE:
             notes.append(
@@ -167,27 +252,13 @@ def _design_pair(req: Requirement, ctx: Context, series: es.SeriesName, tol: flo
                 f"{fb} position is two {series} resistors in {combo[1].how}, for "
                 f"{fmt(combo[2], 'ratio')}.")
             best, best_err = (combo[0], combo[1]), combo[2]
-        elif best_err > req.gain_error and not _reachable(ctx, fv):
-            where = ("--zin" if ctx.zin_ohm and _reachable(Context(req, ctx.part), fv)
-                     else "--source" if req.source_ohm else "--gain")
-            raise BadRequirement(
-                f"{where}: no network of {fmt(nm.WINDOW_OHM[0], 'resistance')}..."
-                f"{fmt(nm.WINDOW_OHM[1], 'resistance')} resistors reaches {'an' if t[0] in 'aeiou' else 'a'} {t} gain of "
-                f"{gain:g} V/V" + (f" with an input resistor of at least "
-                                   f"{fmt(ctx.zin_ohm, 'resistance')}" if ctx.zin_ohm else "")
-                + (f" from a {fmt(req.source_ohm, 'resistance')} source" if req.source_ohm
-                   else "") + f" (closest {float(model.gain.flat[_first_best(err)]):.4g} V/V); "
-                "lower --zin or --source, change the gain, or buffer the input")
-        else:
-            notes.append(f"The nominal ratio error {fmt(best_err, 'ratio')} exceeds its "
-                         f"{fmt(share, 'ratio')} share of the gain-error budget; a finer "
-                         "series (--series E96) gets closer.")
+    if best_err > allowed * (1 + 1e-12):
+        raise fail()
+    if best_err > share:
+        notes.append(f"The nominal ratio error {fmt(best_err, 'ratio')} is above its "
+                     f"{fmt(share, 'ratio')} share of the gain-error budget (within the "
+                     "budget itself).")
     rf, leg = best
-    if t in ("inverting", "difference") and req.source_ohm >= leg.ohms:
-        notes.append(f"The {fmt(req.source_ohm, 'resistance')} source is most of the input leg "
-                     f"(with {fb} {fmt(leg.ohms, 'resistance')}): the gain follows its accuracy, "
-                     "which the tolerance figures do not include; --zin or --rf make the leg "
-                     "larger.")
     slots = [Slot.single(fa, rf), leg]
     if t == "difference":
         slots = [Slot("r1", leg.ohms, leg.parts, leg.how), Slot.single("r2", rf),
@@ -198,17 +269,9 @@ def _design_pair(req: Requirement, ctx: Context, series: es.SeriesName, tol: flo
     if rp_slot is not None:
         slots.append(rp_slot)
         net["rp"] = rp_slot.ohms
-    return _finish(req, ctx, series, tol, slots, net, notes, seed)
-
-
-def _reachable(ctx: Context, fv: Array) -> bool:
-    """Whether some feedback value's ideal leg (exact ratio) lies inside the window and
-    above --zin: if not, no series, however fine, gets close."""
-    req = ctx.req
-    g, rs = req.gain, req.source_ohm
-    leg = fv / (g - 1) if req.topology == "non-inverting" else fv / g - rs
-    lo = max(nm.WINDOW_OHM[0], ctx.zin_ohm or 0.0)
-    return bool(((leg >= lo) & (leg <= nm.WINDOW_OHM[1])).any())
+    if t == "difference" and kept:
+        kept = ("r2", "r4") if kept == ("r2",) else ("r1", "r3")
+    return slots, net, notes, kept
 
 
 def _first_best(err: Array) -> int:
@@ -280,7 +343,7 @@ def _compensation(req: Requirement, ctx: Context, series: es.SeriesName,
     ng, rplus, rminus, rp_ideal = _offset_parts(ctx, net)
     if rp_ideal < nm.WINDOW_OHM[0]:
         return None, []
-    rp = es.nearest(rp_ideal, series)
+    rp = _nearest_in_window(rp_ideal, series)
     unc = float(nm.bias_offset(ng, rplus, rminus, p.ib_a, p.ios_a))
     comp = float(nm.bias_offset(ng, rplus + rp, rminus, p.ib_a, p.ios_a))
     vos = ng * (p.vos_v or 0.0)
@@ -297,13 +360,24 @@ def _compensation(req: Requirement, ctx: Context, series: es.SeriesName,
     return Slot.single("rp", rp), [note]
 
 
+def _nearest_in_window(value: float, series: es.SeriesName) -> float:
+    """The series member inside the window nearest to ``value`` on a log scale."""
+    v = es.values(series, *nm.WINDOW_OHM)
+    return float(v[np.argmin(np.abs(np.log(v / value)))])
+
+
 def _follower(req: Requirement, p: nm.PartData, series: es.SeriesName
               ) -> tuple[list[Slot], dict[str, float], list[str]]:
-    """No network; a feedback resistor equal to the source resistance when it pays."""
+    """No network; a feedback resistor that balances the source resistance when it pays
+    (inside the window), or the one given with --rf, kept exactly."""
     open_leg = {"rg": math.inf} if req.topology == "non-inverting" else {}
     rs = req.source_ohm
+    if req.rf_pinned:
+        return ([Slot.single("rf", req.rf_ohm)], {"rf": req.rf_ohm, **open_leg},
+                [f"Rf {fmt(req.rf_ohm, 'resistance', 4)} kept as given; it does not change "
+                 "the gain."])
     if p.ib_a is not None and p.ios_a is not None and rs >= nm.WINDOW_OHM[0]:
-        rf = es.nearest(rs, series)
+        rf = _nearest_in_window(rs, series)
         unc = float(nm.bias_offset(1.0, rs, 0.0, p.ib_a, p.ios_a))
         comp = float(nm.bias_offset(1.0, rs, rf, p.ib_a, p.ios_a))
         if unc - comp >= COMP_MIN_IMPROVEMENT * ((p.vos_v or 0.0) + unc):
@@ -319,31 +393,36 @@ def _follower(req: Requirement, p: nm.PartData, series: es.SeriesName
     return [], {"rf": 0.0, **open_leg}, [note]
 
 
-def _given(req: Requirement, series: es.SeriesName) -> tuple[list[Slot], list[str]]:
-    """Slots of a network given in the requirement, analysed as it is."""
-    assert req.network is not None
-    slots = [Slot.single(k, v) for k, v in req.network.items() if 0 < v < math.inf]
-    off = [s.name for s in slots if not es.is_member(s.ohms, series)]
-    notes = ["The network was given in the requirement; it is analysed, not designed."]
-    if off:
-        notes.append(f"Not {series} values: {', '.join(off)}.")
-    return slots, notes
-
-
-def _finish(req: Requirement, ctx: Context, series: es.SeriesName, tol: float,
-            slots: list[Slot], net: dict[str, float], notes: list[str], seed: int) -> Network:
-    t, rs = req.topology, req.source_ohm
+def _finish(req: Requirement, ctx: Context, series: es.SeriesName, slots: list[Slot],
+            net: dict[str, float], notes: list[str], seed: int, given: tuple[str, ...],
+            *, mc: bool = True, redo: Callable[[float], Network] | None = None) -> Network:
+    t, rs, tol = req.topology, req.source_ohm, req.tolerance
     gain = float(kind(t).ideal_gain(rs, net))
     wc = worst_case(t, rs, net, tol)
-    p99 = p99_error(monte_carlo(t, rs, slots, tol, seed=seed), req.gain) if slots else abs(
-        gain / req.gain - 1)
+    p99 = (p99_error(monte_carlo(t, rs, slots, tol, seed=seed), req.gain) if slots and mc
+           else abs(gain / req.gain - 1))
+    m = None
+    names = kind(t).pair_names
+    if names is not None and all(k in net for k in names) and math.isfinite(net[names[1]]):
+        m = nm.pair_model(t, rs, net[names[0]], net[names[1]])
+    noise = float(noise_v(ctx, m)) if m is not None and ctx.noise_budget is not None else None
+    offset = (float(offset_v(ctx, m)) if m is not None and ctx.offset_budget is not None
+              else None)
     n = Network(t, series, tol, req.gain, tuple(slots), gain, wc, p99, net,
-                tuple(describe(ctx)), ())
-    return Network(**{**n.__dict__, "notes": tuple(notes + _tolerance_notes(req, n))})
+                tuple(describe(ctx)), (), why=nc.why_line(ctx, net, noise, offset),
+                input_ohm=nc.input_impedance(req, net), source_share=nc.source_share(req, net),
+                network_current_a=nc.network_current(req, net),
+                power_w=nc.peak_power(req, net), given=given)
+    extra = _tolerance_notes(req, n, redo) if redo is not None else []
+    return replace(n, notes=tuple(notes + extra))
 
 
-def _tolerance_notes(req: Requirement, n: Network) -> list[str]:
-    """Say when the gain-error budget is tighter than the resistor tolerance allows."""
+
+def _tolerance_notes(req: Requirement, n: Network, redo: Callable[[float], Network]
+                     ) -> list[str]:
+    """Say when the gain-error budget is tighter than the resistor tolerance allows, and
+    which standard class fits: each finer class is tried by designing again with it (the
+    design may change with the tolerance), so the advice holds when rerun."""
     budget = req.gain_error
     if abs(n.gain_error) > budget:
         return [f"The nominal gain {n.gain:.5g} V/V misses {n.target_gain:.5g} V/V by "
@@ -351,9 +430,18 @@ def _tolerance_notes(req: Requirement, n: Network) -> list[str]:
                 "gain-error budget before any tolerance."]
     if not n.slots or n.tolerance == 0 or n.worst_case_error <= budget:
         return []
-    need = tolerance_needed(n.gain_error, n.worst_case_error, n.tolerance, budget)
-    fix = (f"use {fmt(need, 'ratio')} resistors or better, or trim" if need is not None
-           else "no standard tolerance is enough: trim the gain")
+    need = None
+    for t in STANDARD_TOLERANCES:
+        if t >= n.tolerance:
+            continue
+        try:
+            if redo(t).worst_case_error <= budget:
+                need = t
+                break
+        except BadRequirement:
+            continue
+    fix = (f"use {fmt(need, 'ratio')} resistors or better (--tolerance {fmt(need, 'ratio')})"
+           if need is not None else "no standard tolerance is enough: trim the gain")
     tol = fmt(n.tolerance, "ratio")
     spread = (f"with ±{tol} resistors the gain can move to {n.worst_case[0]:.4g}.."
               f"{n.worst_case[1]:.4g} V/V (worst case ±{fmt(n.worst_case_error, 'ratio')}); "
@@ -381,14 +469,14 @@ def exact_gain(req: Requirement, network: Mapping[str, float],
 
 
 def with_designed_network(req: Requirement, part: Mapping[str, Any] | nm.PartData | None = None,
-                          *, series: es.SeriesName = "E24",
-                          feedback_ohm: float | None = None) -> Requirement:
+                          *, series: es.SeriesName = "E24") -> Requirement:
     """``req`` with its network designed from standard values (as ``picker net`` shows
-    it), or ``req`` itself when it names its own network. This is the network the
-    checks, the rankings and the waveform prediction use instead of an ideal ratio."""
+    it), or ``req`` itself when it names its own network. Values given with --rf/--rg
+    are kept exactly. This is the network the checks, the rankings and the waveform
+    prediction use instead of an ideal ratio."""
     if req.network is not None:
         return req
-    net = design_network(req, part, series=series, feedback_ohm=feedback_ohm)
+    net = design_network(req, part, series=series)
     return req.with_changes(network=dict(net.network))
 
 

@@ -66,6 +66,9 @@ KEYS: dict[str, str] = {
     "qty": "qty",
     "margin": "margin",
     "rf": "rf_ohm",
+    "rg": "rg_ohm",
+    "rin": "rg_ohm",
+    "zin": "zin_ohm",
     "mains": "mains",
     "light-load-swing": "light_load_swing",
     "network": "network",
@@ -102,6 +105,9 @@ RANGES: dict[str, tuple[float, float, str]] = {
     "load": (1e-3, 1e12, "Ω (1 mΩ to 1 TΩ)"),
     "source": (0.0, 1e12, "Ω (0 to 1 TΩ)"),
     "rf": (1e-3, 1e12, "Ω (1 mΩ to 1 TΩ)"),
+    "rg": (1e-3, 1e12, "Ω (1 mΩ to 1 TΩ)"),
+    "rin": (1e-3, 1e12, "Ω (1 mΩ to 1 TΩ)"),
+    "zin": (1.0, 1e12, "Ω (1 Ω to 1 TΩ)"),
     "network": (1e-3, 1e12, "Ω (1 mΩ to 1 TΩ; 0 where a short is allowed)"),
     "network-c": (1e-15, 1.0, "F (1 fF to 1 F)"),
     "gain-error": (1e-9, 1.0, "(1 ppb to 100%)"),
@@ -168,7 +174,14 @@ class Requirement:
     qty: int = 1
     margin: float = 1.25
     rf_ohm: float = 10e3
-    rf_pinned: bool = False  # rf was given: the designed network keeps it
+    rf_pinned: bool = False  # rf was given: the designed network keeps it, exactly
+    # the gain leg as built (rg: the inverting stage's input resistor, also written
+    # --rin; the non-inverting stage's ground leg; r1 = r3 of the difference stage),
+    # kept exactly; None: designed
+    rg_ohm: float | None = None
+    # least input impedance the source may see (inverting, difference), Ω; None: the
+    # designer's default max(10 kΩ, 10 x the source) (picker.design.netlimits)
+    zin_ohm: float | None = None
     network: Mapping[str, float] | None = field(default=None, hash=False)
     # part values to take where a part leaves them blank (field -> SI value), by the
     # user's explicit choice; every output marks them as assumed
@@ -316,6 +329,15 @@ class Requirement:
             raise BadRequirement(f"{label('source')}: the source resistance must be >= 0 Ω")
         if not (self.rf_ohm > 0 and math.isfinite(self.rf_ohm)):
             raise BadRequirement(f"{label('rf')}: the feedback resistor must be above 0 Ω")
+        if self.rg_ohm is not None and t == "follower":
+            raise BadRequirement(f"{label('rg')}: a follower has no gain leg; omit it (--rf "
+                                 "alone gives its bias-balancing feedback resistor)")
+        if self.rg_ohm is not None and not (self.rg_ohm > 0 and math.isfinite(self.rg_ohm)):
+            raise BadRequirement(f"{label('rg')}: the gain leg must be above 0 Ω")
+        if self.zin_ohm is not None and t not in ("inverting", "difference"):
+            raise BadRequirement(f"{label('zin')}: a {t} stage's input impedance is the "
+                                 "op-amp's own, not set by resistors; use --zin with inverting "
+                                 "or difference")
         for name, v in (("offset-max", self.offset_max_v), ("noise-max", self.noise_max_v)):
             if v is not None and not v > 0:
                 raise BadRequirement(f"{label(name)}: the limit must be above 0 V")
@@ -660,6 +682,15 @@ def _build(values: Mapping[str, tuple[Any, str]]) -> Requirement:
             kw["rf_ohm"] = _ranged(key, parse(raw, "resistance", name, allow_zero=False),
                                    name, raw)
             kw["rf_pinned"] = True
+        elif key in ("rg", "rin"):
+            if key == "rin" and "rg" in values:
+                raise BadRequirement(f"{name}: --rin and --rg name the same resistor of an "
+                                     "inverting stage; give one of them")
+            kw["rg_ohm"] = _ranged(key, parse(raw, "resistance", name, allow_zero=False),
+                                   name, raw)
+        elif key == "zin":
+            kw["zin_ohm"] = None if _optional(raw) else _ranged(
+                key, parse(raw, "resistance", name, allow_zero=False), name, raw)
         elif key in ("mains", "light-load-swing"):
             kw[KEYS[key]] = _bool(raw, name)
         elif key == "network":
@@ -719,6 +750,9 @@ def _build(values: Mapping[str, tuple[Any, str]]) -> Requirement:
             raise BadRequirement(f"{lab('gain')}: missing; give the signal gain, e.g. --gain 10 "
                                  "or --gain 20dB")
         kw["gain"] = 1.0
+    if "rin" in values and kw["topology"] != "inverting":
+        raise BadRequirement(f"{lab('rin')}: --rin is the input resistor of an inverting "
+                             f"stage; the {kw['topology']} stage's gain leg is --rg")
     if "freq_hz" not in kw:
         raise BadRequirement(f"{lab('freq')}: missing; give the top signal frequency, "
                              "e.g. --freq 20kHz")

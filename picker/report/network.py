@@ -22,9 +22,11 @@ _ROLE = {
 
 
 def position_line(net: Network, name: str) -> str:
-    """``Rf 47 kΩ (E24)``, with how a two-resistor position is made."""
+    """``Rf 47 kΩ (E24)``, with how a two-resistor position is made (``as given`` for a
+    value kept exactly)."""
     slot = next(s for s in net.slots if s.name == name)
-    text = f"{name.capitalize()} {fmt(slot.ohms, 'resistance', 4)} ({net.series})"
+    where = "as given" if name in net.given else net.series
+    text = f"{name.capitalize()} {fmt(slot.ohms, 'resistance', 4)} ({where})"
     if slot.how != "single":
         parts = " + ".join(fmt(p, "resistance") for p in slot.parts)
         text = (f"{name.capitalize()} {fmt(slot.ohms, 'resistance', 4)}: {parts} in "
@@ -37,14 +39,29 @@ def render(net: Network, *, part: str | None = None,
            cautions: list[str] | None = None) -> str:
     """The whole report of ``picker net``."""
     tol = fmt(net.tolerance, "ratio")
-    lines = [f"{net.topology} stage, gain {net.target_gain:.6g} V/V, {net.series} resistors, "
-             f"±{tol}" + (f", limits from {part}" if part else "")]
+    built = set(net.given) >= {s.name for s in net.slots} and net.slots
+    lines = [f"{net.topology} stage, gain {net.target_gain:.6g} V/V, "
+             + ("network as built" if built else f"{net.series} resistors")
+             + f", ±{tol}" + (f", limits from {part}" if part else "")]
     lines += [f"!! {c}" for c in cautions or []]  # first, where a person looks
+    if net.why:
+        lines.append(("as built: " if built else "chosen: ") + net.why)
     for slot in net.slots:
         role = _ROLE.get(net.topology, {}).get(slot.name, "")
         lines.append(f"  {position_line(net, slot.name)}" + (f"   {role}" if role else ""))
     if not net.slots:
         lines.append("  (no resistors)")
+    if net.input_ohm is not None:
+        lines.append(f"input impedance {fmt(net.input_ohm, 'resistance')}"
+                     + ("" if net.source_share is None else
+                        f"; the source is {net.source_share:.2%} of the input leg (its own "
+                        "accuracy moves the gain by that share)"))
+    else:
+        lines.append("input impedance: the op-amp's own input")
+    if net.power_w:
+        lines.append(f"network load {fmt(net.network_current_a, 'current')} at the peak; power "
+                     "at the peak: " + ", ".join(f"{k.capitalize()} {fmt(w, 'power')}"
+                                                  for k, w in net.power_w.items()))
     lo, hi = net.worst_case
     lines += [
         f"gain {net.gain:.6g} V/V with an ideal op-amp, error {net.gain_error:+.4%}",

@@ -11,7 +11,8 @@ from numpy.testing import assert_allclose
 from tests.cli.clirun import fails, run
 
 STAGE = ["--vin", "0.5Vpk", "--freq", "20kHz", "--rails", "±12"]
-KEYS = {"series", "resistors", "gain", "gain_error", "worst_case", "mc_p99_error"}
+KEYS = {"series", "resistors", "gain", "gain_error", "worst_case", "mc_p99_error", "why",
+        "input_ohm", "source_share", "network_current_a", "power_w", "given"}
 
 
 def is_member(value: float, series: str) -> bool:
@@ -116,7 +117,7 @@ def test_spec_pick_and_why_use_the_designed_network(db: str, tmp_path) -> None: 
     # a design file's rf pins the feedback resistor like --rf does
     f = tmp_path / "stage.toml"
     f.write_text('topology = "inverting"\ngain = 6.8\nvin = "0.5Vpk"\nfreq = "20kHz"\n'
-                 'rails = "±12"\nrf = "33k"\n', encoding="utf-8")
+                 'rails = "±12"\nrf = "150k"\n', encoding="utf-8")
     pinned = json.loads(run("net", "--design", str(f), "--json", "--db", db).stdout)
-    assert pinned["resistors"]["rf"] == 33e3
-    assert "network: rf 33 kΩ" in run("spec", "--design", str(f)).stdout
+    assert pinned["resistors"]["rf"] == 150e3
+    assert "network: rf 150 kΩ" in run("spec", "--design", str(f)).stdout

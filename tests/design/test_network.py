@@ -123,13 +123,20 @@ def test_gain_matches_sympy_nodal_analysis(case: tuple) -> None:
 
 def _brute_force(topo: str, r: Requirement, part: dict | None, series: str) -> list[tuple]:
     """Every pair of IEC 60063 values inside the limits, written out here by hand:
-    network load >= 1 kΩ and total load within 1 kΩ or Iout (common practice, no
-    source); with compensation the bias-current output offset is Ios·Rf (any op-amp
-    text, e.g. Franco, Design with Operational Amplifiers, 4th ed., ch. 5, from memory)."""
-    vals = eseries_values(series)
+    each resistor 1 kΩ..1 MΩ; the network's output current at the peak at most 10% of
+    the load's or 1 mA, whichever is larger, and network and load within Iout over the
+    margin; the input resistor at least max(10 kΩ, 10 x source) (the issue's rules:
+    common practice, no source); with compensation the bias-current output offset is
+    Ios·Rf·... (any op-amp text, e.g. Franco, Design with Operational Amplifiers, 4th
+    ed., ch. 5, from memory)."""
+    vals = eseries_values(series, 1e3, 1e6)
     out = []
     vout = r.vout
     g_load = 0.0 if r.load_ohm is None else 1 / r.load_ohm
+    g_max = max(0.1 * g_load, 1e-3 / vout)
+    if part is not None and part["iout_a"] / (r.margin * vout) - g_load > 0:
+        g_max = min(g_max, part["iout_a"] / (r.margin * vout) - g_load)
+    zin = max(10e3, 10 * r.source_ohm)
     for a in vals:
         for b in vals:
             if topo == "inverting":
@@ -139,13 +146,14 @@ def _brute_force(topo: str, r: Requirement, part: dict | None, series: str) -> l
             else:
                 g = a / (r.source_ohm + b)
                 g_net = (1 - 0.5 / (1 + g)) / a
-            if g_net > 1e-3 * (1 + 1e-12):
+            if g_net > g_max * (1 + 1e-12):
                 continue
-            total_max = 1e-3 if part is None else part["iout_a"] / (r.margin * vout)
-            if g_net + g_load > total_max * (1 + 1e-12):
+            if topo != "non-inverting" and b < zin / (1 + 1e-12):
                 continue
             if part is not None and r.offset_max_v is not None:
-                if part["ios_a"] * a > nm.OFFSET_SHARE * r.offset_max_v / r.margin * (1 + 1e-12):
+                ng = 1 + g if topo == "inverting" else g
+                if ng * part["ios_a"] * (a * b / (a + b)) > nm.OFFSET_SHARE * r.offset_max_v \
+                        / r.margin * (1 + 1e-12):
                     continue
             out.append((abs(g / r.gain - 1), a, b))
     return out
@@ -153,7 +161,9 @@ def _brute_force(topo: str, r: Requirement, part: dict | None, series: str) -> l
 
 @pytest.mark.parametrize("case", [c for c in CASES if c[5] in ("E12", "E24")],
                          ids=[c[0] for c in CASES if c[5] in ("E12", "E24")])
-def test_no_pair_inside_the_limits_has_a_smaller_error(case: tuple) -> None:
+def test_no_pair_inside_the_limits_is_better_beyond_the_tolerance_floor(case: tuple) -> None:
+    from picker.design.netchoice import error_floor
+
     _, topo, gain, kw, part, series = case
     r = req(topo, gain, **kw)
     net = design_network(r, part, series=series)
@@ -161,17 +171,12 @@ def test_no_pair_inside_the_limits_has_a_smaller_error(case: tuple) -> None:
     assert pairs
     best = min(p[0] for p in pairs)
     err = abs(net.gain_error)
-    # reference: brute force over all IEC 60063 pairs (eseries); ties within TIE
-    assert err <= best + TIE
-    if all(s.how == "single" for s in net.slots):
-        assert_allclose(err, best, atol=TIE)
-        # ties go to the lowest feedback resistor (lowest noise and offset)
-        ties = [p for p in pairs if p[0] <= best + TIE]
-        fb = net.network["r2" if topo == "difference" else "rf"]
-        assert fb == min(p[1] for p in ties)
-        leg = net.network["r1" if topo == "difference" else "rg"]
-        assert (err, fb, leg) in [(e, a, b) for e, a, b in pairs] or any(
-            abs(e - err) <= TIE and a == fb and b == leg for e, a, b in pairs)
+    # reference: brute force over all IEC 60063 pairs (eseries) inside the window and
+    # limits; errors below the floor (a fifth of the tolerance, common practice, no
+    # source) count as equal
+    assert err <= max(best, error_floor(r)) + TIE
+    for slot in net.slots:
+        assert 1e3 <= slot.ohms <= 1e6 or slot.how != "single"
 
 
 def test_series_or_parallel_leg_when_no_single_pair_is_close_enough() -> None:
@@ -278,7 +283,7 @@ def test_thermal_noise_limit_uses_codata_boltzmann() -> None:
 
 def test_noise_budget_bounds_the_feedback_resistor() -> None:
     r = req("inverting", 10.0, noise_max_v=60e-6, freq_hz=2e4)
-    net = design_network(r, CMOS, series="E24")
+    net = design_network(r, CMOS, series="E24", zin_ohm=1e3)
     rf_, rg_ = net.network["rf"], net.network["rg"]
     # reference: 4kTR with CODATA k_B at 25 °C over the π/2·GBW/NG noise bandwidth
     from scipy.constants import k
@@ -289,8 +294,6 @@ def test_noise_budget_bounds_the_feedback_resistor() -> None:
 
 def test_compensation_resistor_only_where_it_pays() -> None:
     r = req("inverting", 10.0, vin_pk=0.5)
-    small = design_network(r, BIPOLAR, series="E24")  # rf 1 kΩ: Ib·rf ≪ Vos·NG
-    assert "rp" not in small.network
     # a 100 kΩ input resistor makes rf 1 MΩ, where 80 nA of bias current matters
     bip = design_network(r, BIPOLAR, series="E24", zin_ohm=100e3)
     assert "rp" in bip.network
@@ -309,7 +312,6 @@ def test_zin_keeps_the_input_resistor_large() -> None:
     pairs = [p for p in _brute_force("inverting", r, None, "E24") if p[2] >= 22e3]
     # reference: brute force over IEC 60063 E24 pairs with rg >= 22 kΩ
     assert abs(net.gain_error) <= min(p[0] for p in pairs) + TIE
-    assert net.network["rf"] == min(p[1] for p in pairs if p[0] <= TIE)
     with pytest.raises(BadRequirement, match="--zin"):
         design_network(req("non-inverting", 10.0), None, zin_ohm=1e4)
 
@@ -347,24 +349,23 @@ def test_given_network_is_analysed_not_designed() -> None:
 
 def test_pinned_feedback_resistor_searches_only_the_leg() -> None:
     r = req("inverting", 4.7)
-    net = design_network(r, None, series="E24", feedback_ohm=33e3)
-    # reference: IEC 60063 E24 holds 33 kΩ; the leg is the best over all E24 values
-    assert net.network["rf"] == 33e3 and is_iec_member(33e3, "E24")
-    single = min(abs(33e3 / b / 4.7 - 1) for b in eseries_values("E24"))
+    net = design_network(r, None, series="E24", feedback_ohm=68e3)
+    # reference: IEC 60063 E24 holds 68 kΩ; the leg is the best over E24 values >= 10 kΩ
+    assert net.network["rf"] == 68e3 and is_iec_member(68e3, "E24")
+    single = min(abs(68e3 / b / 4.7 - 1) for b in eseries_values("E24", 10e3, 1e6))
     assert abs(net.gain_error) <= single + TIE
 
 
-@pytest.mark.parametrize("kw,zin,word", [
-    # by hand: rf <= 10 MΩ, so rf/(1.5 MΩ + rg) < 6.67 < 10
-    ({"source_ohm": 1.5e6}, None, "--source"),
-    # by hand: rg >= 100 kΩ and rf <= 10 MΩ cap the gain at 100 < 1000
-    ({"vin_pk": 1e-3}, 100e3, "--zin"),
+@pytest.mark.parametrize("kw,gain,word", [
+    # by hand: rf <= 1 MΩ, so rf/(1.5 MΩ + rg) < 0.67 < 10
+    ({"source_ohm": 1.5e6}, 10.0, "buffer the source"),
+    # by hand: rf <= 1 MΩ and rg >= 1 kΩ cap an inverting gain at 1000 < 10000
+    ({"vin_pk": 1e-4}, 1e4, "split the gain"),
 ])
-def test_unreachable_gain_is_a_clear_error(kw: dict, zin: float | None, word: str) -> None:
-    gain = 1000.0 if zin else 10.0
+def test_unreachable_gain_is_a_clear_error(kw: dict, gain: float, word: str) -> None:
     with pytest.raises(BadRequirement) as exc:
-        design_network(req("inverting", gain, **kw), None, zin_ohm=zin)
-    assert str(exc.value).startswith(word) and "\n" not in str(exc.value)
+        design_network(req("inverting", gain, **kw), None, zin_ohm=1e3)
+    assert word in str(exc.value) and "\n" not in str(exc.value)
 
 
 @pytest.mark.parametrize("name", ["E3", "E6", "E12", "E24", "E48", "E96", "E192"])
