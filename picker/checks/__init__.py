@@ -108,10 +108,10 @@ class Check:
 
 
 def _registry() -> tuple[Check, ...]:
-    from picker.checks import accuracy, gain, limits
+    from picker.checks import accuracy, gain, limits, stability
 
     return (limits.SWING, limits.COMMON_MODE, limits.SLEW, gain.GAIN_ACCURACY,
-            gain.PHASE, limits.OUTPUT_CURRENT, limits.SUPPLY, accuracy.OFFSET, accuracy.NOISE,
+            gain.PHASE, stability.STABILITY, limits.OUTPUT_CURRENT, limits.SUPPLY, accuracy.OFFSET, accuracy.NOISE,
             limits.STOCK)
 
 
