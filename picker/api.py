@@ -139,9 +139,20 @@ class PartReport:
         """``picker why --json``: part, spec, verdict and each check's record (SI)."""
         from picker.checks.gain import phase_deg
 
+        from picker.checks.stability import fixes, stage_margins
+
         phase = float(phase_deg(self.parts, self.spec)[0])
+        mg = stage_margins(self.parts, self.spec.stage)
+        fix = fixes(self.parts, self.spec)[0]
+
+        def num(x: float) -> float | None:
+            return float(x) if math.isfinite(x) else None
+
         return {"part": self.part, "spec": self.spec.to_json(), "verdict": self.verdict,
-                "phase_at_f_deg": phase if math.isfinite(phase) else None,
+                "phase_at_f_deg": num(phase),
+                "phase_margin_deg": num(mg.pm_deg[0]), "crossover_hz": num(mg.fc_hz[0]),
+                "peaking_db": num(mg.peaking_db[0]),
+                "stability_fix": None if fix is None else fix.sentence(),
                 "assumed": self.assumed, "checks": self.table.records(0)}
 
 

@@ -84,6 +84,27 @@ class Selection:
         ph = phase_deg(self.parts.take(np.asarray(rows, dtype=np.intp)), self.spec)
         return [None if not np.isfinite(x) else float(x) for x in ph.tolist()]
 
+    def stability(self, rows: Sequence[int]) -> list[tuple[float | None, float | None]]:
+        """(phase margin in degrees, closed-loop peaking in dB) of each row in the stage
+        (None: unknown), computed for these rows only (picker.checks.stability)."""
+        from picker.checks.stability import stage_margins
+
+        if not len(rows):
+            return []
+        mg = stage_margins(self.parts.take(np.asarray(rows, dtype=np.intp)), self.spec.stage)
+        return [(None if not np.isfinite(p) else float(p), None if not np.isfinite(k) else float(k))
+                for p, k in zip(mg.pm_deg.tolist(), mg.peaking_db.tolist(), strict=True)]
+
+    def stability_fixes(self, rows: Sequence[int]) -> list[str | None]:
+        """For each row failing on its phase margin, the fix as one sentence (None: no
+        fix found, or the row does not fail on it)."""
+        from picker.checks.stability import fixes
+
+        if not len(rows):
+            return []
+        found = fixes(self.parts.take(np.asarray(rows, dtype=np.intp)), self.spec)
+        return [None if f is None else f.sentence() for f in found]
+
     def to_json(self, listed: int | None = None) -> dict[str, Any]:
         """The JSON shape of ``picker pick --json`` (SI base units).
 
@@ -104,11 +125,15 @@ class Selection:
                 chunk = list(entries[start:start + 1000])
                 rows = [e.row for e in chunk]
                 phases = self.phases(rows)
-                for e, checks, ph in zip(chunk, t.records_for(rows), phases, strict=True):
+                stab = self.stability(rows)
+                for e, checks, ph, (pm, peak) in zip(chunk, t.records_for(rows), phases, stab,
+                                                      strict=True):
                     item: dict[str, Any] = {"part": e.part}
                     if extra is not None:
                         item[extra] = list(getattr(e, extra))
                     item["phase_at_f_deg"] = ph
+                    item["phase_margin_deg"] = pm
+                    item["peaking_db"] = peak
                     if self.assumed:
                         item["assumed"] = self.assumed_for(e.row)
                     item["checks"] = checks
