@@ -98,6 +98,15 @@ def synthetic_columns(n: int, seed: int = 7) -> dict[str, Any]:
         cols[name] = np.where(rng2.random(n) < 0.05, np.nan, _lognormal(rng2, 40.0, 0.8, n))
     cols["ib_double_c"] = np.where(rng2.random(n) < 0.6, np.nan,
                                    by_tech(-80.0, 10.0, 10.0) * rng2.uniform(0.8, 1.2, n))
+    # stability fields of schema 0005, from a third stream: follower phase margin (a few
+    # parts decompensated: low margin and a minimum noise gain), input capacitances
+    rng3 = np.random.default_rng(seed + 2)
+    decomp = rng3.random(n) < 0.05
+    pm = np.where(decomp, rng3.uniform(15.0, 35.0, n), rng3.uniform(45.0, 75.0, n))
+    cols["pm_unity_deg"] = np.where(rng3.random(n) < 0.05, np.nan, pm)
+    cols["min_noise_gain"] = np.where(decomp, rng3.choice([2.0, 5.0, 10.0], n), np.nan)
+    for name in ("cin_diff_f", "cin_cm_f"):
+        cols[name] = np.where(rng3.random(n) < 0.05, np.nan, _lognormal(rng3, 3e-12, 0.5, n))
     return cols
 
 

@@ -75,7 +75,8 @@ def test_phase_error_limit_at_the_single_pole_boundary() -> None:
                           "out_rsat_pos_ohm": 0.0, "out_rsat_neg_ohm": 0.0,
                           "out_head_neg_v": 0.0, "cm_head_pos_v": 0.0, "cm_head_neg_v": 0.0,
                           "iout_a": 1.0, "supply_min_v": 1.0, "supply_max_v": 100.0,
-                          "qty": 1.0, "channels": 1.0}
+                          "qty": 1.0, "channels": 1.0, "pm_unity_deg": 90.0,
+                          "cin_diff_f": 0.0, "cin_cm_f": 0.0}
     sel = select(pd.DataFrame(list(rows.values()), index=list(rows)), req)
     assert [e.part for e in sel.accepted] == ["k=1.02"]
     assert sel.rejected[0].fails == ["phase"]

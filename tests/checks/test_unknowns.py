@@ -46,7 +46,7 @@ def roomy(s: Spec) -> dict[str, float]:
             "supply_min_v": 0.5 * mn.supply_span_v, "supply_max_v": 2 * mn.supply_span_v,
             "vos_v": 1e-6, "drift_v_per_c": 1e-9, "ib_a": 1e-12, "ios_a": 1e-13,
             "en_v_per_rthz": 1e-9, "in_a_per_rthz": 1e-15, "qty": 10.0, "available": 10.0,
-            "channels": 1.0}
+            "channels": 1.0, "pm_unity_deg": 80.0, "cin_diff_f": 1e-15, "cin_cm_f": 1e-15}
 
 
 @pytest.mark.parametrize("options", STAGES, ids=lambda o: o["topology"])
