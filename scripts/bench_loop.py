@@ -13,6 +13,8 @@ import math
 from collections.abc import Mapping, Sequence
 from typing import Any
 
+from picker.circuit.loopgain import Model, margins
+
 BOLTZMANN = 1.380649e-23  # J/K, exact since the 2019 SI redefinition (CODATA 2018)
 nan = math.nan
 
@@ -51,16 +53,21 @@ def _det3(a: Sequence[Any], b: Sequence[Any], c: Sequence[Any]) -> Any:
             + a[2] * (b[0] * c[1] - b[1] * c[0]))
 
 
-def _loop(st: Any, rin: float, ro: float) -> tuple[float, float, float, float]:
-    """n0, n1, d0, d1 of the nodal solution of one part (picker.circuit.opamp)."""
+def _loop(st: Any, rin: float, ro: float, s: complex = 0j, cin: float = 0.0,
+          ccm: float = 0.0) -> tuple[Any, Any, Any, Any]:
+    """n0, n1, d0, d1 of the nodal solution of one part (picker.circuit.opamp), at s with
+    the input capacitances (differential cin, common-mode ccm from each input)."""
     gin = 0.0 if math.isnan(rin) or math.isinf(rin) else 1.0 / rin
+    if s:
+        gin = gin + s * (0.0 if math.isnan(cin) else cin)
+    ycm = s * (0.0 if math.isnan(ccm) else ccm) if s else 0.0
     ro = 0.0 if math.isnan(ro) else ro
     gg = 0.0 if math.isinf(st.rg) else 1.0 / st.rg
     gl = 0.0 if math.isinf(st.load) else 1.0 / st.load
     kp, kg, zp, rf = st.kp, st.kg, st.zp, st.rf
-    r1 = (1 + zp * gin, -zp * gin, 0.0)
-    r2 = (-rf * gin, 1 + rf * gg + rf * gin, -1.0)
-    r3 = (-ro * gin, ro * gg + ro * gin, 1 + ro * gl)
+    r1 = (1 + zp * gin + zp * ycm, -zp * gin, 0.0)
+    r2 = (-rf * gin, 1 + rf * gg + rf * gin + rf * ycm, -1.0)
+    r3 = (-ro * gin, ro * gg + ro * gin + ro * ycm, 1 + ro * gl)
     ra = (-1.0, 1.0, 0.0)
     rhs = (kp, rf * gg * kg, ro * gg * kg)
     d0 = _det3(r1, r2, r3)
@@ -92,7 +99,10 @@ def check_rows(cols: Mapping[str, list[float]], spec: Any) -> dict[str, list[flo
     f = req.freq_hz
     offset_on, noise_on = req.offset_max_v is not None, req.noise_max_v is not None
     out: dict[str, list[float]] = {k: [] for k in ("swing", "common_mode", "slew", "gain_accuracy",
-                                                   "output_current", "supply")}
+                                                   "stability", "output_current", "supply")}
+    cin_matters = req.source_ohm > 0  # the source pole (picker.checks.gain)
+    pm_need = req.phase_margin_deg
+    net = st.circuit
     if offset_on:
         out["offset"] = []
         off_need = req.offset_max_v / req.margin
@@ -137,13 +147,30 @@ def check_rows(cols: Mapping[str, list[float]], spec: Any) -> dict[str, list[flo
                 err = nan
             else:
                 a = a0 / (1 + 1j * f * a0 / gbw)
-                err_f = _spread_error(abs((n0 + n1 * a) / (d0 + d1 * a)) / st.gain, spec.budget)
+                m0, m1, e0, e1 = _loop(st, row["rin_ohm"], row["rout_ohm"], 2j * math.pi * f,
+                                       row["cin_diff_f"], row["cin_cm_f"])
+                err_f = _spread_error(abs((m0 + m1 * a) / (e0 + e1 * a)) / st.gain, spec.budget)
                 err = max(err_dc, err_f)
         missing = ((rin_matters and math.isnan(row["rin_ohm"]))
-                   or (ro_matters and math.isnan(row["rout_ohm"])))
+                   or (ro_matters and math.isnan(row["rout_ohm"]))
+                   or (cin_matters and (math.isnan(row["cin_diff_f"])
+                                        or math.isnan(row["cin_cm_f"]))))
         if missing and err <= gain_need:
             err = nan
         out["gain_accuracy"].append(_at_most(gain_need, err))
+        # stability: the loop of one part (picker.circuit.loopgain on a one-element model)
+        one = Model.of([a0], [gbw], [row["pm_unity_deg"]], [row["rin_ohm"]], [row["rout_ohm"]],
+                       [row["cin_diff_f"]], [row["cin_cm_f"]])
+        pm = float(margins(net, one).pm_deg[0])
+        m = _at_least(pm_need, pm)
+        ng_min = row["min_noise_gain"]
+        if ng < ng_min:
+            m = min(m, ng / ng_min)
+        unknown = (math.isnan(gbw) or math.isnan(row["pm_unity_deg"]) or math.isnan(a0)
+                   or (st.cload > 0 and math.isnan(row["rout_ohm"]))
+                   or (rin_matters and (math.isnan(row["rin_ohm"]) or math.isnan(row["cin_diff_f"])
+                                        or math.isnan(row["cin_cm_f"]))))
+        out["stability"].append(nan if unknown and not m < 1 else m)
         out["output_current"].append(math.inf if amps_need == 0
                                      else _at_least(amps_need, row["iout_a"]))
         out["supply"].append(_worse(_at_least(span, row["supply_max_v"]),

@@ -36,11 +36,10 @@ def _loop(p: Parts, st: Stage) -> Loop:
 
 def caps_matter(p: Parts, st: Stage) -> bool:
     """Whether the gain at f needs the solver at f: the stage has capacitors (a load
-    capacitance), or a resistance at an input meets a known input capacitance."""
+    capacitance), or some part has a known input capacitance (it loads a resistance at
+    an input, or the output through Ro)."""
     if st.reactive:
         return True
-    if not rin_matters(st):
-        return False
     return bool(np.any(np.isfinite(p["cin_diff_f"])) or np.any(np.isfinite(p["cin_cm_f"])))
 
 
