@@ -138,7 +138,6 @@ class PartReport:
     def to_json(self) -> dict[str, Any]:
         """``picker why --json``: part, spec, verdict and each check's record (SI)."""
         from picker.checks.gain import phase_deg
-
         from picker.checks.stability import fixes, stage_margins
 
         phase = float(phase_deg(self.parts, self.spec)[0])

@@ -32,6 +32,7 @@ from dataclasses import dataclass
 from typing import TYPE_CHECKING, Literal
 
 import numpy as np
+import numpy.typing as npt
 
 from picker.checks import Check
 from picker.checks.core import Array, CheckResult, Coded, Parts, result
@@ -66,10 +67,10 @@ def stage_margins(p: Parts, st: Stage) -> Margins:
                   lambda: margins(st.circuit, model(p)))
 
 
-def _too_low_gain(p: Parts, st: Stage) -> Array:
+def _too_low_gain(p: Parts, st: Stage) -> npt.NDArray[np.bool_]:
     """Per part: the stage's noise gain is below the part's minimum stable noise gain."""
     with np.errstate(invalid="ignore"):
-        return st.noise_gain < p["min_noise_gain"]  # type: ignore[no-any-return]
+        return np.asarray(st.noise_gain < p["min_noise_gain"], dtype=bool)
 
 
 def _run(p: Parts, s: Spec) -> CheckResult:

@@ -94,7 +94,8 @@ def _terms(net: Netlist, m: Model, f: npt.ArrayLike) -> tuple[Complex, Complex, 
     s = 2j * np.pi * np.asarray(f, dtype=float)
     s = np.broadcast_to(s, np.broadcast_shapes(s.shape, m.gbw.shape))
     lp = loop_at(net, s, m.rin, m.ro, m.cin, m.ccm)
-    return lp.n0, lp.n1, lp.d0, inverse_open_loop(s, m.a0, m.gbw, m.wp2)
+    n0, n1, d0 = (np.asarray(x, dtype=complex) for x in (lp.n0, lp.n1, lp.d0))
+    return n0, n1, d0, inverse_open_loop(s, m.a0, m.gbw, m.wp2)
 
 
 def loop_gain(net: Netlist, m: Model, f: npt.ArrayLike) -> Complex:

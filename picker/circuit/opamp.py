@@ -203,7 +203,8 @@ def _general(num: Mapping[tuple[str, ...], npt.ArrayLike],
 
     with np.errstate(invalid="ignore", divide="ignore"):
         d1 = total(den, True)
-        parts = [total(num, False) / d1, total(num, True) / d1, total(den, False) / d1]
+        parts = [np.divide(total(num, False), d1), np.divide(total(num, True), d1),
+                 np.divide(total(den, False), d1)]
     shape = np.broadcast_shapes(*(np.shape(x) for x in parts))
     n0, n1, d0 = (np.broadcast_to(x, shape) for x in parts)
     return Loop(n0, n1, d0, np.ones(shape))  # type: ignore[arg-type]
