@@ -25,7 +25,8 @@ def part(**changes: float) -> dict[str, float]:
             "rout_ohm": 50.0, "out_head_pos_v": 1.0, "out_head_neg_v": 1.0,
             "out_rsat_pos_ohm": 20.0, "out_rsat_neg_ohm": 20.0,
             "cm_head_pos_v": 1.0, "cm_head_neg_v": 1.0, "iout_a": 0.03, "supply_min_v": 5.0,
-            "supply_max_v": 36.0, "qty": 10.0, "channels": 1.0, "price": 1.0}
+            "supply_max_v": 36.0, "qty": 10.0, "channels": 1.0, "price": 1.0,
+            "pm_unity_deg": 70.0, "cin_diff_f": 0.0, "cin_cm_f": 0.0}
     return {**base, **changes}
 
 
@@ -72,11 +73,13 @@ def test_json_shape() -> None:
     assert set(js) == {"spec", "accepted", "rejected", "unverified", "nearest"}
     assert set(js["spec"]) == {"signal_gain", "noise_gain", "margin", "min", "budget"}
     assert tuple(js["spec"]["min"]) == tuple(f.name for f in fields(Minimums))
-    assert set(js["accepted"][0]) == {"part", "phase_at_f_deg", "checks"}
-    assert set(js["rejected"][0]) == {"part", "fails", "phase_at_f_deg", "checks"}
+    assert set(js["accepted"][0]) == {"part", "phase_at_f_deg", "phase_margin_deg", "peaking_db",
+                                      "checks"}
+    assert set(js["rejected"][0]) == {"part", "fails", "phase_at_f_deg", "phase_margin_deg",
+                                      "peaking_db", "checks"}
     checks = js["accepted"][0]["checks"]
-    assert list(checks) == ["swing", "common_mode", "slew", "gain_accuracy", "output_current",
-                            "supply", "stock"]
+    assert list(checks) == ["swing", "common_mode", "slew", "gain_accuracy", "stability",
+                            "output_current", "supply", "stock"]
     for record in checks.values():
         assert set(record) == {"status", "need", "has", "margin"}
     slew = js["rejected"][0]["checks"]["slew"]
@@ -114,7 +117,8 @@ def test_parts_with_nothing_recorded_are_unverified_not_passed() -> None:
     sel = select(bare, req)
     assert sel.accepted == [] and sel.rejected == []
     assert sel.unverified[0].unknown == ["swing", "common_mode", "slew", "gain_accuracy",
-                                         "output_current", "supply", "offset", "noise"]
+                                         "stability", "output_current", "supply", "offset",
+                                         "noise"]
     assert by_name("offset").needed(sel.spec) == ("vos_v", "ib_a", "ios_a")  # no drift at 25 °C
     empty = select(PARTS.iloc[:0], REQ)
     assert (empty.accepted, empty.rejected, empty.unverified, empty.nearest) == ([], [], [], [])
