@@ -143,11 +143,21 @@ class PartReport:
         from picker.checks.filters import phase_deg as filter_phase
         from picker.checks.gain import phase_deg
         from picker.checks.rejection import stage_db
+        from picker.checks.stability import fixes, stage_margins
+
+        def num(x: float) -> float | None:
+            return float(x) if math.isfinite(x) else None
 
         phase = float((filter_phase if self.spec.requirement.is_filter else phase_deg)(
             self.parts, self.spec)[0])
         out = {"part": self.part, "spec": self.spec.to_json(), "verdict": self.verdict,
-               "phase_at_f_deg": phase if math.isfinite(phase) else None}
+               "phase_at_f_deg": num(phase)}
+        if "stability" in self.table.results:
+            mg = stage_margins(self.parts, self.spec.stage)
+            fix = fixes(self.parts, self.spec)[0]
+            out |= {"phase_margin_deg": num(mg.pm_deg[0]), "crossover_hz": num(mg.fc_hz[0]),
+                    "peaking_db": num(mg.peaking_db[0]),
+                    "stability_fix": None if fix is None else fix.sentence()}
         if "common_mode_rejection" in self.table.results:
             out["cmrr_db"] = stage_db(self.parts, self.spec)[0]
         return out | {"assumed": self.assumed, "checks": self.table.records(0)}

@@ -111,6 +111,15 @@ def synthetic_columns(n: int, seed: int = 7) -> dict[str, Any]:
     cols["vdiff_max_v"] = np.where(rng3.random(n) < 0.05, np.nan,
                                    np.where(rng3.random(n) < 0.2, 0.7, supply_max))
     cols["psrr_db"] = np.where(rng3.random(n) < 0.1, np.nan, rng3.uniform(60.0, 130.0, n))
+    # stability fields of schema 0005, from a fourth stream: follower phase margin (a few
+    # parts decompensated: low margin and a minimum noise gain), input capacitances
+    rng4 = np.random.default_rng(seed + 3)
+    decomp = rng4.random(n) < 0.05
+    pm = np.where(decomp, rng4.uniform(15.0, 35.0, n), rng4.uniform(45.0, 75.0, n))
+    cols["pm_unity_deg"] = np.where(rng4.random(n) < 0.05, np.nan, pm)
+    cols["min_noise_gain"] = np.where(decomp, rng4.choice([2.0, 5.0, 10.0], n), np.nan)
+    for name in ("cin_diff_f", "cin_cm_f"):
+        cols[name] = np.where(rng4.random(n) < 0.05, np.nan, _lognormal(rng4, 3e-12, 0.5, n))
     return cols
 
 

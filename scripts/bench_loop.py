@@ -13,6 +13,8 @@ import math
 from collections.abc import Mapping, Sequence
 from typing import Any
 
+from picker.circuit.loopgain import Model, margins
+
 BOLTZMANN = 1.380649e-23  # J/K, exact since the 2019 SI redefinition (CODATA 2018)
 nan = math.nan
 
@@ -51,16 +53,21 @@ def _det3(a: Sequence[Any], b: Sequence[Any], c: Sequence[Any]) -> Any:
             + a[2] * (b[0] * c[1] - b[1] * c[0]))
 
 
-def _loop(st: Any, rin: float, ro: float) -> tuple[float, float, float, float]:
-    """n0, n1, d0, d1 of the nodal solution of one part (picker.circuit.opamp)."""
+def _loop(st: Any, rin: float, ro: float, s: complex = 0j, cin: float = 0.0,
+          ccm: float = 0.0) -> tuple[Any, Any, Any, Any]:
+    """n0, n1, d0, d1 of the nodal solution of one part (picker.circuit.opamp), at s with
+    the input capacitances (differential cin, common-mode ccm from each input)."""
     gin = 0.0 if math.isnan(rin) or math.isinf(rin) else 1.0 / rin
+    if s:
+        gin = gin + s * (0.0 if math.isnan(cin) else cin)
+    ycm = s * (0.0 if math.isnan(ccm) else ccm) if s else 0.0
     ro = 0.0 if math.isnan(ro) else ro
     gg = 0.0 if math.isinf(st.rg) else 1.0 / st.rg
     gl = 0.0 if math.isinf(st.load) else 1.0 / st.load
     kp, kg, zp, rf = st.kp, st.kg, st.zp, st.rf
-    r1 = (1 + zp * gin, -zp * gin, 0.0)
-    r2 = (-rf * gin, 1 + rf * gg + rf * gin, -1.0)
-    r3 = (-ro * gin, ro * gg + ro * gin, 1 + ro * gl)
+    r1 = (1 + zp * gin + zp * ycm, -zp * gin, 0.0)
+    r2 = (-rf * gin, 1 + rf * gg + rf * gin + rf * ycm, -1.0)
+    r3 = (-ro * gin, ro * gg + ro * gin + ro * ycm, 1 + ro * gl)
     ra = (-1.0, 1.0, 0.0)
     rhs = (kp, rf * gg * kg, ro * gg * kg)
     d0 = _det3(r1, r2, r3)
@@ -116,8 +123,8 @@ def check_rows(cols: Mapping[str, list[float]], spec: Any) -> dict[str, list[flo
     f = req.freq_hz
     offset_on, noise_on = req.offset_max_v is not None, req.noise_max_v is not None
     out: dict[str, list[float]] = {k: [] for k in ("swing", "common_mode", "slew", "gain_accuracy",
-                                                   "output_current", "supply", "dissipation",
-                                                   "input_protection")}
+                                                   "stability", "output_current", "supply",
+                                                   "dissipation", "input_protection")}
     # dissipation: class-B-like output stage (picker.checks.thermal)
     vp, ta = req.vout, req.temp_max_c
     p_out = max(0.0, st.amps_per_volt_out * (span * vp / math.pi - vp * vp / 2))
@@ -125,6 +132,9 @@ def check_rows(cols: Mapping[str, list[float]], spec: Any) -> dict[str, list[flo
     to_n = 0.0 if math.isinf(st.rg) or st.rg + st.rf == 0 else st.kg * st.rf / (st.rg + st.rf)
     step_need = 2 * req.vin * abs(st.kp - to_n)
     ripple = None if req.ripple is None else req.ripple[0] * ng
+    cin_matters = req.source_ohm > 0  # the source pole (picker.checks.gain)
+    pm_need = req.phase_margin_deg
+    net = st.circuit
     if offset_on:
         out["offset"] = []
         off_need = req.offset_max_v / req.margin
@@ -187,13 +197,35 @@ def check_rows(cols: Mapping[str, list[float]], spec: Any) -> dict[str, list[flo
                 err = nan
             else:
                 a = a0 / (1 + 1j * f * a0 / gbw)
-                err_f = _spread_error(abs((n0 + n1 * a) / (d0 + d1 * a)) / st.gain, spec.budget)
+                g_f = abs((n0 + n1 * a) / (d0 + d1 * a))
+                if not (math.isnan(row["cin_diff_f"]) and math.isnan(row["cin_cm_f"])):
+                    m0, m1, e0, e1 = _loop(st, row["rin_ohm"], row["rout_ohm"],
+                                           2j * math.pi * f, row["cin_diff_f"], row["cin_cm_f"])
+                    g_c = abs((m0 + m1 * a) / (e0 + e1 * a))
+                    ideal = abs(st.ideal_gain)  # the worse of with and without (gain.py)
+                    g_f = g_c if abs(g_c - ideal) > abs(g_f - ideal) else g_f
+                err_f = _spread_error(g_f / st.gain, spec.budget)
                 err = max(err_dc, err_f)
         missing = ((rin_matters and math.isnan(row["rin_ohm"]))
-                   or (ro_matters and math.isnan(row["rout_ohm"])))
+                   or (ro_matters and math.isnan(row["rout_ohm"]))
+                   or (cin_matters and (math.isnan(row["cin_diff_f"])
+                                        or math.isnan(row["cin_cm_f"]))))
         if missing and err <= gain_need:
             err = nan
         out["gain_accuracy"].append(_at_most(gain_need, err))
+        # stability: the loop of one part (picker.circuit.loopgain on a one-element model)
+        one = Model.of([a0], [gbw], [row["pm_unity_deg"]], [row["rin_ohm"]], [row["rout_ohm"]],
+                       [row["cin_diff_f"]], [row["cin_cm_f"]])
+        pm = float(margins(net, one).pm_deg[0])
+        m = _at_least(pm_need, pm)
+        ng_min = row["min_noise_gain"]
+        if ng < ng_min:  # a known failure wins over an unknown phase margin
+            m = ng / ng_min if math.isnan(m) else min(m, ng / ng_min)
+        unknown = (math.isnan(gbw) or math.isnan(row["pm_unity_deg"]) or math.isnan(a0)
+                   or (st.cload > 0 and math.isnan(row["rout_ohm"]))
+                   or (rin_matters and (math.isnan(row["rin_ohm"]) or math.isnan(row["cin_diff_f"])
+                                        or math.isnan(row["cin_cm_f"]))))
+        out["stability"].append(nan if unknown and not m < 1 else m)
         out["output_current"].append(math.inf if amps_need == 0
                                      else _at_least(amps_need, row["iout_a"]))
         out["supply"].append(_worse(_at_least(span, row["supply_max_v"]),

@@ -108,11 +108,20 @@ class Check:
 
 
 def _registry() -> tuple[Check, ...]:
-    from picker.checks import accuracy, filters, gain, limits, protection, rejection, thermal
+    from picker.checks import (
+        accuracy,
+        filters,
+        gain,
+        limits,
+        protection,
+        rejection,
+        stability,
+        thermal,
+    )
 
     return (limits.SWING, limits.COMMON_MODE, rejection.CMRR_CHECK, limits.SLEW,
-            gain.GAIN_ACCURACY, gain.PHASE, limits.OUTPUT_CURRENT, limits.SUPPLY,
-            thermal.DISSIPATION, protection.INPUT_PROTECTION,
+            gain.GAIN_ACCURACY, gain.PHASE, stability.STABILITY, limits.OUTPUT_CURRENT,
+            limits.SUPPLY, thermal.DISSIPATION, protection.INPUT_PROTECTION,
             accuracy.OFFSET, accuracy.NOISE,
             limits.STOCK, *filters.CHECKS)
 

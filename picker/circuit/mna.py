@@ -13,13 +13,16 @@ and solves ``M·x = b`` at a complex frequency ``s``:
 - a voltage source V from plus to minus adds a branch current ``i`` (+1 in the KCL row
   of plus, -1 in that of minus) and the row ``v_plus - v_minus = V``. Sources are given
   per volt of the stage's input, so the solution is the transfer function itself;
-- the op-amp: the admittance ``Yin = 1/Rin + s·Cin`` between its inputs, and at its
-  output a branch current ``i`` (leaving the output node) with the row
+- the op-amp: the admittance ``Yin = 1/Rin + s·Cin`` between its inputs, the
+  common-mode input admittance ``Ycm = s·Ccm`` from each input to ground (two
+  variables, ``ycp`` at the non-inverting input and ``ycn`` at the inverting one, each
+  rank one, so the determinant stays multilinear; a part has ycp = ycn = Ycm), and at
+  its output a branch current ``i`` (leaving the output node) with the row
   ``v_out - A·(v_p - v_n) - Ro·i = 0`` (a source A·(vp - vn) behind Ro).
 
-Each op-amp quantity x in (Yin, Ro, A) enters M as a rank-one stamp ``x·u·vᵀ``
+Each op-amp quantity x in (Yin, Ro, A, Ycp, Ycn) enters M as a rank-one stamp ``x·u·vᵀ``
 (Yin: u = v = e_p - e_n; A: u = e_k, v = e_n - e_p; Ro: u = e_k, v = -e_k, k the
-op-amp's branch row). The determinant of ``M = M0 + Σ x_i·u_i·v_iᵀ`` is therefore
+op-amp's branch row; Ycp: u = v = e_p; Ycn: u = v = e_n). The determinant of ``M = M0 + Σ x_i·u_i·v_iᵀ`` is therefore
 multilinear (affine in each x), and the coefficient of the product of the x_i in a
 subset S is the bordered determinant (the generalised matrix determinant lemma)
 
@@ -35,9 +38,20 @@ system is written in units of a reference resistance R0 (the geometric mean of t
 netlist's resistors): conductances as G·R0, branch currents as i·R0, Ro as Ro/R0, so
 the entries are of order one; the coefficients are converted back to SI afterwards.
 
-The eight coefficients of N and of D at one frequency come from a few small scalar
+The 32 coefficients of N and of D at one frequency come from small scalar
 determinants; picker.circuit.opamp then evaluates every part with whole-array
 operations (one array element per part).
+
+Coefficients as polynomials in s (``polynomials``): every entry of M (and of the
+bordered matrices) is affine in s, and only the capacitors' entries depend on s, so
+each coefficient (before the normalisation of ``coefficients``, which depends on s) is
+a polynomial in s of degree at most the number of capacitors n (a determinant is
+linear in each capacitor's rank-one stamp). Sampled at the n + 1 points
+``s_k = ω0·exp(2πjk/(n+1))`` on a circle, its coefficients are the discrete Fourier
+transform of the samples (exact interpolation; on the circle the transform is
+perfectly conditioned), ω0 = 1/(R0·C0) with C0 the geometric mean of the capacitors.
+A per-part frequency (a crossover) is then evaluated with whole-array Horner steps.
+
 """
 
 from __future__ import annotations
@@ -55,7 +69,7 @@ Complex = npt.NDArray[np.complex128]
 
 GROUND = "0"
 #: The op-amp quantities the coefficients are multilinear in.
-VARIABLES: tuple[str, ...] = ("yin", "ro", "a")
+VARIABLES: tuple[str, ...] = ("yin", "ro", "a", "ycp", "ycn")
 
 
 @dataclass(frozen=True)
@@ -121,7 +135,7 @@ class Netlist:
 
 @dataclass(frozen=True)
 class Coefficients:
-    """N and D of the output voltage, multilinear in (Yin, Ro, A), at one frequency.
+    """N and D of the output voltage, multilinear in (Yin, Ro, A, Ycp, Ycn), at one frequency.
 
     ``num[S]`` and ``den[S]`` are the coefficients of the product of the variables in
     S (a tuple in the order of VARIABLES; ``()`` is the constant term), in SI units
@@ -132,9 +146,11 @@ class Coefficients:
     den: Mapping[tuple[str, ...], complex]
 
     def evaluate(self, yin: npt.ArrayLike = 0.0, ro: npt.ArrayLike = 0.0,
-                 a: npt.ArrayLike = 0.0) -> Complex:
-        """vo = N/D for the given values (arrays broadcast; one element per part)."""
-        val = {"yin": np.asarray(yin), "ro": np.asarray(ro), "a": np.asarray(a)}
+                 a: npt.ArrayLike = 0.0, ycm: npt.ArrayLike = 0.0) -> Complex:
+        """vo = N/D for the given values (arrays broadcast; one element per part);
+        ``ycm`` is the common-mode admittance of each input (ycp = ycn = ycm)."""
+        val = {"yin": np.asarray(yin), "ro": np.asarray(ro), "a": np.asarray(a),
+               "ycp": np.asarray(ycm), "ycn": np.asarray(ycm)}
 
         def poly(c: Mapping[tuple[str, ...], complex]) -> Complex:
             total: Complex = np.asarray(0j)
@@ -189,7 +205,7 @@ def coefficients(net: Netlist, s: complex = 0j) -> Coefficients:
     Parameters
     ----------
     net : Netlist
-        The circuit; its op-amp (if any) supplies the variables Yin, Ro and A.
+        The circuit; its op-amp (if any) supplies the variables Yin, Ro, A, Ycp, Ycn.
     s : complex
         Laplace variable, rad/s (``2j·π·f`` for a sinusoid of f Hz; 0 for DC).
 
@@ -198,6 +214,17 @@ def coefficients(net: Netlist, s: complex = 0j) -> Coefficients:
     Coefficients
         See the module docstring; a netlist without an op-amp has the constant term only.
     """
+    num, den = _raw(net, s)
+    norm = max(abs(x) for x in den.values()) or 1.0
+    return Coefficients({k: complex(v / norm) for k, v in num.items()},
+                        {k: complex(v / norm) for k, v in den.items()})
+
+
+Terms = dict[tuple[str, ...], complex]
+
+
+def _raw(net: Netlist, s: complex) -> tuple[Terms, Terms]:
+    """The coefficients in SI units, not normalised (polynomials in s)."""
     r0 = _reference_ohm(net)
     nodes = _nodes(net)
     if net.out not in nodes:
@@ -240,6 +267,8 @@ def coefficients(net: Netlist, s: complex = 0j) -> Coefficients:
             m[row, :] += out  # v_out - A·(vp - vn) - (Ro/R0)·(i·R0) = 0
             stamps["a"] = (k, -u)
             stamps["ro"] = (k, -k)
+            stamps["ycp"] = (vec((e.p, 1.0)), vec((e.p, 1.0)))  # Ycp·R0 from p to ground
+            stamps["ycn"] = (vec((e.n, 1.0)), vec((e.n, 1.0)))
         else:  # a source, or a wire (a 0 V source)
             plus, minus, volt = (e.plus, e.minus, e.volt) if isinstance(e, Source) else (e.a, e.b, 0.0)
             d = vec((plus, 1.0), (minus, -1.0))
@@ -261,12 +290,71 @@ def coefficients(net: Netlist, s: complex = 0j) -> Coefficients:
             vs_num[j, :] = 0.0
             den[subset] = _bordered(m, us, vs)
             num[subset] = _bordered(m_num, us, vs_num)
-    # back to SI: Yin was Yin·R0 and Ro was Ro/R0 in the scaled system
-    unit = {"yin": r0, "ro": 1.0 / r0, "a": 1.0}
+    # back to SI: an admittance Y was Y·R0 and Ro was Ro/R0 in the scaled system
+    unit = {"yin": r0, "ro": 1.0 / r0, "a": 1.0, "ycp": r0, "ycn": r0}
     scale = {sub: math.prod(unit[v] for v in sub) for sub in den}
-    norm = max(abs(x) for x in den.values()) or 1.0
-    return Coefficients({k: complex(v * scale[k] / norm) for k, v in num.items()},
-                        {k: complex(v * scale[k] / norm) for k, v in den.items()})
+    return ({k: v * scale[k] for k, v in num.items()},
+            {k: v * scale[k] for k, v in den.items()})
+
+
+@dataclass(frozen=True)
+class Polynomials:
+    """The coefficients of N and D as polynomials in s (module docstring).
+
+    ``num[S]`` and ``den[S]`` hold the coefficients of powers of ``s/w0`` (ascending),
+    all divided by one factor; ``w0`` in rad/s.
+    """
+
+    num: Mapping[tuple[str, ...], npt.NDArray[np.complex128]]
+    den: Mapping[tuple[str, ...], npt.NDArray[np.complex128]]
+    w0: float
+
+    def at(self, s: npt.ArrayLike) -> tuple[dict[tuple[str, ...], Complex],
+                                            dict[tuple[str, ...], Complex]]:
+        """Every coefficient at ``s`` (rad/s; an array, one element per part), Horner."""
+        x = np.asarray(s, dtype=complex) / self.w0
+
+        def horner(c: npt.NDArray[np.complex128]) -> Complex:
+            out: Complex = np.full(x.shape, c[-1], dtype=complex)
+            for k in range(len(c) - 2, -1, -1):
+                out = out * x + c[k]
+            return out
+
+        return ({k: horner(c) for k, c in self.num.items() if c.any()},
+                {k: horner(c) for k, c in self.den.items() if c.any()})
+
+
+@functools.lru_cache(maxsize=64)
+def polynomials(net: Netlist) -> Polynomials:
+    """N and D's multilinear coefficients as exact polynomials in s (module docstring).
+
+    Parameters
+    ----------
+    net : Netlist
+        The circuit.
+
+    Returns
+    -------
+    Polynomials
+        Degree at most the number of capacitors.
+    """
+    caps = [e.farad for e in net.elements if isinstance(e, Capacitor) and e.farad > 0]
+    n = len(caps)
+    r0 = _reference_ohm(net)
+    w0 = 1.0 / (r0 * math.exp(sum(map(math.log, caps)) / n)) if n else 1.0
+    points = w0 * np.exp(2j * np.pi * np.arange(n + 1) / (n + 1))
+    samples = [_raw(net, complex(s)) for s in points]
+    norm = max(abs(x) for num, den in samples for x in den.values()) or 1.0
+
+    def fit(which: int) -> dict[tuple[str, ...], npt.NDArray[np.complex128]]:
+        out = {}
+        for key in samples[0][which]:
+            values = np.array([smp[which][key] for smp in samples]) / norm
+            c = np.fft.fft(values) / (n + 1)  # c_m = Σ_k P(s_k)·e^(-2πjkm/(n+1)) / (n+1)
+            out[key] = c
+        return out
+
+    return Polynomials(fit(0), fit(1), w0)
 
 
 def _bordered(m: Complex, us: npt.NDArray[np.float64], vs: npt.NDArray[np.float64]) -> complex:
@@ -283,7 +371,7 @@ def _bordered(m: Complex, us: npt.NDArray[np.float64], vs: npt.NDArray[np.float6
 
 
 def solve(net: Netlist, s: complex = 0j, *, a: complex = 0.0, yin: complex = 0.0,
-          ro: float = 0.0) -> complex:
+          ro: float = 0.0, ycm: complex = 0.0) -> complex:
     """The output voltage of ``net`` at ``s`` for one op-amp (scalars; see coefficients).
 
     Parameters
@@ -295,14 +383,16 @@ def solve(net: Netlist, s: complex = 0j, *, a: complex = 0.0, yin: complex = 0.0
     a, yin, ro : complex, complex, float
         The op-amp's open-loop gain A(s) (V/V), input admittance Yin(s) (S) and output
         resistance Ro (Ω).
+    ycm : complex
+        The common-mode input admittance from each input to ground (S).
 
     Returns
     -------
     complex
         v(out) per volt of input.
     """
-    return complex(coefficients(net, complex(s)).evaluate(yin, ro, a))
+    return complex(coefficients(net, complex(s)).evaluate(yin, ro, a, ycm))
 
 
-__all__ = ["Capacitor", "Coefficients", "Element", "GROUND", "Netlist", "OpAmp", "Resistor",
-           "Source", "VARIABLES", "coefficients", "solve"]
+__all__ = ["Capacitor", "Coefficients", "Element", "GROUND", "Netlist", "OpAmp", "Polynomials",
+           "Resistor", "Source", "VARIABLES", "coefficients", "polynomials", "solve"]

@@ -138,9 +138,10 @@ def bode(part: str, stage: dict[str, Any], png: str | None, size: str | None, as
          db: str | None) -> None:
     """Closed-loop gain and phase of a part in the stage, over frequency.
 
-    The exact small-signal response (single-pole open-loop gain, input and output
-    resistance, source, load and network): the -3 dB frequency and the gain and phase
-    at the top frequency (--freq). Example:
+    The exact small-signal response (two-pole open-loop gain from the part's follower
+    phase margin, input and output resistance, input capacitances, source, load, load
+    capacitance and network): the -3 dB frequency, the gain and phase at the top
+    frequency (--freq), and the loop's phase margin, crossover and peaking. Example:
 
         picker bode bip-gp-a --topology non-inverting --gain 20 --vin 0.25V --freq 20kHz --rails ±12 --png bode.png
     """

@@ -102,6 +102,27 @@ class Selection:
             return []
         return stage_db(self.parts.take(np.asarray(rows, dtype=np.intp)), self.spec)
 
+    def stability(self, rows: Sequence[int]) -> list[tuple[float | None, float | None]]:
+        """(phase margin in degrees, closed-loop peaking in dB) of each row in the stage
+        (None: unknown), computed for these rows only (picker.checks.stability)."""
+        from picker.checks.stability import stage_margins
+
+        if not len(rows):
+            return []
+        mg = stage_margins(self.parts.take(np.asarray(rows, dtype=np.intp)), self.spec.stage)
+        return [(None if not np.isfinite(p) else float(p), None if not np.isfinite(k) else float(k))
+                for p, k in zip(mg.pm_deg.tolist(), mg.peaking_db.tolist(), strict=True)]
+
+    def stability_fixes(self, rows: Sequence[int]) -> list[str | None]:
+        """For each row failing on its phase margin, the fix as one sentence (None: no
+        fix found, or the row does not fail on it)."""
+        from picker.checks.stability import fixes
+
+        if not len(rows):
+            return []
+        found = fixes(self.parts.take(np.asarray(rows, dtype=np.intp)), self.spec)
+        return [None if f is None else f.sentence() for f in found]
+
     def to_json(self, listed: int | None = None) -> dict[str, Any]:
         """The JSON shape of ``picker pick --json`` (SI base units).
 
@@ -123,12 +144,17 @@ class Selection:
                 rows = [e.row for e in chunk]
                 phases = self.phases(rows)
                 cmrr = self.cmrr(rows) if self.shows_cmrr else [None] * len(rows)
-                for e, checks, ph, cm in zip(chunk, t.records_for(rows), phases, cmrr,
-                                             strict=True):
+                stab = (self.stability(rows) if "stability" in t.results
+                        else [(None, None)] * len(rows))
+                for e, checks, ph, cm, (pm, peak) in zip(chunk, t.records_for(rows), phases,
+                                                         cmrr, stab, strict=True):
                     item: dict[str, Any] = {"part": e.part}
                     if extra is not None:
                         item[extra] = list(getattr(e, extra))
                     item["phase_at_f_deg"] = ph
+                    if "stability" in t.results:
+                        item["phase_margin_deg"] = pm
+                        item["peaking_db"] = peak
                     if self.shows_cmrr:
                         item["cmrr_db"] = cm
                     if self.assumed:

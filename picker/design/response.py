@@ -22,6 +22,11 @@ depend on frequency, so the solver is run at every frequency of the sweep,
 ``G = (n0/A + n1)/(d0/A + d1)`` with ``1/A = 1/A0 + j·f/GBW`` (no infinity for an
 unknown A0), and the -3 dB frequency is the first crossing of ``|G(0)|/√2`` on a fine
 log grid, refined by bisection (relative width 1e-9).
+
+A part with its phase margin as a follower (``pm_unity_deg``) gets the stability check's
+model instead (picker.circuit.loopgain): the two-pole open loop, the load capacitance
+behind Ro and the input capacitances, the solver's coefficients as exact polynomials in
+s; the response then also carries the loop's phase margin, crossover and peaking.
 """
 
 from __future__ import annotations
@@ -34,6 +39,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 import numpy.typing as npt
 
+from picker.circuit.loopgain import Model, closed_loop, margins
 from picker.circuit.opamp import Loop, loop
 from picker.design.waveform import _labels
 from picker.errors import BadRequirement
@@ -45,7 +51,8 @@ if TYPE_CHECKING:
 Array = npt.NDArray[np.float64]
 
 #: part columns the response reads
-COLUMNS: tuple[str, ...] = ("gbw_hz", "aol_v_per_v", "rin_ohm", "rout_ohm")
+COLUMNS: tuple[str, ...] = ("gbw_hz", "aol_v_per_v", "rin_ohm", "rout_ohm", "pm_unity_deg",
+                             "cin_diff_f", "cin_cm_f")
 
 
 @dataclass(frozen=True)
@@ -109,13 +116,18 @@ class Response:
     gain_at_f: Array  # (P,) dB at freq_hz
     phase_at_f: Array  # (P,) degrees at freq_hz, in (-180, 180]
     known: npt.NDArray[np.bool_]  # (P,) False: GBW unknown
+    phase_margin: Array  # (P,) degrees (NaN: no follower phase margin given)
+    crossover: Array  # (P,) Hz
+    peaking: Array  # (P,) dB
 
     def summary(self, i: int) -> dict[str, Any]:
         """The JSON record of part ``i`` (Hz, dB, degrees)."""
         def num(v: float) -> float | None:
             return None if not math.isfinite(v) else float(v)
         return {"part": self.labels[i], "f3db": num(self.f3db[i]),
-                "gain_at_f": num(self.gain_at_f[i]), "phase_at_f": num(self.phase_at_f[i])}
+                "gain_at_f": num(self.gain_at_f[i]), "phase_at_f": num(self.phase_at_f[i]),
+                "phase_margin_deg": num(self.phase_margin[i]),
+                "crossover_hz": num(self.crossover[i]), "peaking_db": num(self.peaking[i])}
 
     def index(self, label: str) -> int:
         return self.labels.index(label)
@@ -181,6 +193,25 @@ def _f3db_solved(st: Stage, cols: Mapping[str, Array], gbw: Array, freq_hz: floa
     return out
 
 
+def _f3db_model(st: Stage, m: Model, freq_hz: float, dc: npt.NDArray[np.complex128]) -> Array:
+    """The first frequency where |G| falls to |G(0)|/√2 with the two-pole model, per
+    part (a log grid, then bisection in log f; inf: none found)."""
+    hi_dec = math.ceil(math.log10(max(float(np.max(m.gbw)), freq_hz))) + 3
+    grid = np.logspace(math.floor(math.log10(freq_hz)) - 4, hi_dec, (hi_dec + 4) * 20 + 1)
+    target = np.abs(dc) / math.sqrt(2)
+    below = np.abs(closed_loop(st.circuit, m.column(), grid[None, :])) < target[:, None]
+    found = below.any(axis=1)
+    k = np.argmax(below, axis=1)
+    lo = np.log(grid[np.maximum(k - 1, 0)])
+    hi = np.log(grid[k])
+    for _ in range(40):
+        mid = 0.5 * (lo + hi)
+        under = np.abs(closed_loop(st.circuit, m, np.exp(mid))) < target
+        lo, hi = np.where(under, lo, mid), np.where(under, mid, hi)
+    out = np.where(k == 0, grid[0], np.exp(0.5 * (lo + hi)))
+    return np.where(found, out, np.inf)  # type: ignore[no-any-return]
+
+
 def simulate(st: Stage, parts: Mapping[str, Any], freq_hz: float,
              labels: tuple[str, ...] | None = None, freqs: npt.ArrayLike | None = None) -> Response:
     """The closed-loop response of ``st`` for every part in ``parts`` (columns of COLUMNS)."""
@@ -191,7 +222,20 @@ def simulate(st: Stage, parts: Mapping[str, Any], freq_hz: float,
     known = np.isfinite(cols["gbw_hz"]) & (cols["gbw_hz"] > 0)
     gbw = np.where(known, cols["gbw_hz"], 1.0)
     nan = np.where(known, 0.0, np.nan)
-    if st.reactive:  # not first order: the solver at every frequency
+    two_pole = bool(np.isfinite(cols["pm_unity_deg"]).all())
+    none = np.full(n, np.nan)
+    mg_pm, mg_fc, mg_peak = none, none, none
+    if two_pole:  # the stability check's model (module docstring)
+        m = Model.of(cols["aol_v_per_v"], gbw, cols["pm_unity_deg"], cols["rin_ohm"],
+                     cols["rout_ohm"], cols["cin_diff_f"], cols["cin_cm_f"])
+        mg = margins(st.circuit, m)
+        mg_pm, mg_fc, mg_peak = mg.pm_deg + nan, mg.fc_hz + nan, mg.peaking_db + nan
+        dc = closed_loop(st.circuit, m, np.zeros(n))
+        f3 = _f3db_model(st, m, freq_hz, dc) + nan
+        axis = sweep(freq_hz, f3) if freqs is None else np.asarray(freqs, dtype=float)
+        g = closed_loop(st.circuit, m.column(), axis[None, :])
+        at_f = closed_loop(st.circuit, m, np.full(n, freq_hz))
+    elif st.reactive:  # not first order: the solver at every frequency
         dc = solved_gain(st, cols, gbw, [0.0])[:, 0]
         f3 = _f3db_solved(st, cols, gbw, freq_hz, dc) + nan
         axis = sweep(freq_hz, f3) if freqs is None else np.asarray(freqs, dtype=float)
@@ -211,7 +255,8 @@ def simulate(st: Stage, parts: Mapping[str, Any], freq_hz: float,
     phase = np.degrees(np.unwrap(np.angle(g), axis=1)) + nan[:, None]
     return Response(labels=labels, freq_hz=freq_hz, freqs=axis, gain_db=db, phase_deg=phase,
                     f3db=f3, dc_gain_db=dc_db, gain_at_f=at_db,
-                    phase_at_f=np.degrees(np.angle(at_f)) + nan, known=known)
+                    phase_at_f=np.degrees(np.angle(at_f)) + nan, known=known,
+                    phase_margin=mg_pm, crossover=mg_fc, peaking=mg_peak)
 
 
 def response(req: Requirement, parts: Any, freq_hz: float | None = None,

@@ -199,9 +199,15 @@ def pick_text(sel: Selection, max_listed: int | None = None) -> str:
     if sel.rejected:
         closest = "" if max_listed is None or max_listed >= len(sel.rejected) else ", closest first"
         lines += ["", f"Rejected ({len(sel.rejected)}{closest}):"]
-        for e in sel.rejected[:max_listed]:
+        shown_rejected = list(sel.rejected[:max_listed])
+        unstable = [e.row for e in shown_rejected if "stability" in e.fails]
+        fix = dict(zip(unstable, sel.stability_fixes(unstable), strict=True))
+        for e in shown_rejected:
             lines.append(f"  {e.part}")
-            lines += [f"    {limit_line(t.results[n], e.row, parts, needed[n])}" for n in e.fails]
+            for n in e.fails:
+                lines.append(f"    {limit_line(t.results[n], e.row, parts, needed[n])}")
+                if n == "stability" and fix.get(e.row):
+                    lines.append(f"      {fix[e.row]}")
         lines += _more(len(sel.rejected), max_listed, "rejected")
     if sel.nearest:
         lines += ["", "Nearest misses: the requirement would have to move (one change at a "

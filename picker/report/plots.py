@@ -164,9 +164,18 @@ def bode_figure(resp: Response, i: int, size_px: tuple[int, int] = BODE_SIZE) ->
     ax_p.xaxis.set_major_formatter(EngFormatter(unit="Hz"))
     ax_g.legend(loc="lower left", fontsize="small", framealpha=0.9)
     f3_text = fmt(f3, "frequency") if math.isfinite(f3) else "none"
+    pm, fc = float(resp.phase_margin[i]), float(resp.crossover[i])
+    if math.isfinite(fc):
+        ax_p.axvline(fc, label=f"loop crossover {fmt(fc, 'frequency')}", color="0.4",
+                     linestyle=":", linewidth=1.0)
+    pm_text = (f"phase margin {pm:.1f}° at {fmt(fc, 'frequency')}, peaking "
+               f"{resp.peaking[i]:.2f} dB" if math.isfinite(pm) else "phase margin unknown")
     ax_g.set_title(
         f"{resp.labels[i]}: closed-loop response; -3 dB at {f3_text}; at "
-        f"{fmt(top, 'frequency')}: {resp.gain_at_f[i]:.2f} dB, {resp.phase_at_f[i]:.1f}°")
+        f"{fmt(top, 'frequency')}: {resp.gain_at_f[i]:.2f} dB, {resp.phase_at_f[i]:.1f}°\n"
+        f"{pm_text}")
+    ax_p.text(0.99, 0.04, pm_text, transform=ax_p.transAxes, ha="right", va="bottom",
+              fontsize="small")
     return fig
 
 

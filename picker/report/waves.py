@@ -82,8 +82,21 @@ def bode_text(resp: Response, i: int, req: Requirement) -> str:
         ["-3 dB frequency", fmt(f3, "frequency") if math.isfinite(f3) else "none"],
         [f"gain at {fmt(resp.freq_hz, 'frequency')}", f"{resp.gain_at_f[i]:.3f} dB"],
         [f"phase at {fmt(resp.freq_hz, 'frequency')}", f"{resp.phase_at_f[i]:.2f}°"],
+        ["phase margin", stability_text(resp, i)],
+        ["closed-loop peaking", "-" if math.isnan(resp.peaking[i])
+         else f"{resp.peaking[i]:.2f} dB"],
     ]
     return str(tabulate(rows, tablefmt="plain", disable_numparse=True))
+
+
+def stability_text(resp: Response, i: int) -> str:
+    """``52.3° at 1.2 MHz crossover`` (or why there is none) for part i."""
+    pm, fc = float(resp.phase_margin[i]), float(resp.crossover[i])
+    if math.isnan(pm):
+        return "unknown (no phase margin as a follower recorded; single-pole model)"
+    if math.isinf(pm):
+        return "no crossover (the loop gain stays below 1)"
+    return f"{pm:.1f}° at crossover {fmt(fc, 'frequency')}"
 
 
 def candidates_json(cands: Candidates) -> list[dict[str, Any]]:
@@ -91,5 +104,5 @@ def candidates_json(cands: Candidates) -> list[dict[str, Any]]:
     return [cands.waves.summary(k) for k in range(len(cands.waves.labels))]
 
 
-__all__ = ["bode_text", "candidates_json", "candidates_text", "network_text", "stage_line",
+__all__ = ["bode_text", "stability_text", "candidates_json", "candidates_text", "network_text", "stage_line",
            "thd_text", "wave_text"]

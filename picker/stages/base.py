@@ -6,7 +6,8 @@ from the reference level, per volt of input signal):
 - the non-inverting input is driven by a Thévenin source ``kp`` behind ``zp``;
 - the inverting input connects to the output through ``rf`` and to a Thévenin
   source ``kg`` through ``rg`` (source resistance included; ``inf`` = open);
-- the output drives the load ``load`` (``inf`` = none) to the reference.
+- the output drives the load ``load`` (``inf`` = none) to the reference, and the
+  capacitive load ``cload`` (0 = none; in the netlist, not in the DC reduction).
 
 With an ideal op-amp the output is ``vo = kp·(1 + rf/rg) - kg·rf/rg`` per volt in
 (Thévenin reduction of a resistive divider; any circuits text, e.g. Horowitz and Hill,
@@ -30,7 +31,7 @@ from typing import TYPE_CHECKING, Any, ClassVar
 import numpy as np
 import numpy.typing as npt
 
-from picker.circuit.mna import Netlist, OpAmp, Resistor, Source
+from picker.circuit.mna import GROUND, Capacitor, Element, Netlist, OpAmp, Resistor, Source
 
 if TYPE_CHECKING:
     from picker.design.requirement import Requirement
@@ -60,6 +61,36 @@ def reduced_netlist(kp: float, zp: float, kg: float, rg: float, rf: float,
     return Netlist(tuple(e), "o")
 
 
+def with_cload(net: Netlist, cload: float) -> Netlist:
+    """``net`` with the capacitor ``cload`` (F) from its output to the reference (0: as is)."""
+    if cload <= 0:
+        return net
+    return Netlist((*net.elements, Capacitor(net.out, GROUND, cload)), net.out)
+
+
+def isolated(net: Netlist, riso: float) -> Netlist:
+    """``net`` with ``riso`` (Ω) between the op-amp's output pin and its load.
+
+    Every resistor or capacitor from the output node to the reference (the load) moves
+    to a new node ``load``, which becomes the output; the feedback stays at the pin.
+    """
+    out = net.out
+    moved: list[Element] = []
+    for e in net.elements:
+        if isinstance(e, (Resistor, Capacitor)) and {e.a, e.b} == {out, GROUND}:
+            e = (Resistor("load", GROUND, e.ohm) if isinstance(e, Resistor)
+                 else Capacitor("load", GROUND, e.farad))
+        moved.append(e)
+    return Netlist((*moved, Resistor(out, "load", riso)), "load")
+
+
+def with_feedback_cap(net: Netlist, cf: float) -> Netlist:
+    """``net`` with ``cf`` (F) from the op-amp's output to its inverting input (across rf)."""
+    amp = net.opamp
+    assert amp is not None
+    return Netlist((*net.elements, Capacitor(amp.n, amp.out, cf)), net.out)
+
+
 @dataclass(frozen=True)
 class Stage:
     """One stage: its network, its reduced circuit (scalars, SI units) and its netlist."""
@@ -75,6 +106,7 @@ class Stage:
     gain: float  # the requested signal-gain magnitude: the reference for gain errors
     ideal_network: bool
     netlist: Netlist | None = None  # the stage's own circuit; None: the reduced one
+    cload: float = 0.0  # capacitive load at the output, F (in the netlist)
 
     def allows(self, check: str) -> bool:
         """Whether the check named ``check`` holds for this stage (a filter stage narrows
@@ -90,7 +122,8 @@ class Stage:
         """The netlist the solver works on (input 1 V, output node ``o``)."""
         if self.netlist is not None:
             return self.netlist
-        return reduced_netlist(self.kp, self.zp, self.kg, self.rg, self.rf, self.load)
+        return with_cload(reduced_netlist(self.kp, self.zp, self.kg, self.rg, self.rf,
+                                          self.load), self.cload)
 
     @property
     def reactive(self) -> bool:
@@ -151,7 +184,8 @@ class StageType(ABC):
         load = math.inf if req.load_ohm is None else req.load_ohm
         kp, zp, kg, rg, rf = self.reduce(res, req.source_ohm)
         return Stage(self.name, res, kp, zp, kg, rg, rf, load, req.gain, ideal,
-                     self.netlist(res, req.source_ohm, load))
+                     with_cload(self.netlist(res, req.source_ohm, load), req.cload_f),
+                     req.cload_f)
 
     @abstractmethod
     def ideal_network(self, gain: float, rs: float, rf: float) -> dict[str, float]:
@@ -184,4 +218,5 @@ class StageType(ABC):
         return req.ref - swing, req.ref + swing
 
 
-__all__ = ["Array", "Stage", "StageType", "parallel", "reduced_netlist"]
+__all__ = ["Array", "Stage", "StageType", "isolated", "parallel", "reduced_netlist",
+           "with_cload", "with_feedback_cap"]

@@ -40,7 +40,7 @@ rg = "10k"
 
 def demo_part(label: str) -> Part:
     row = pd.read_csv(DEMO, index_col="label").loc[label]
-    return Part(**{k: float(row[k]) for k in Part.__dataclass_fields__})
+    return Part(**{k: float(row[k]) for k in Part.__dataclass_fields__ if k in row.index})
 
 
 def test_pick_and_why_phase_match_ngspice(demo_db: str, tmp_path: Path) -> None:
@@ -76,7 +76,8 @@ def test_phase_error_limit_at_the_single_pole_boundary() -> None:
                           "out_head_neg_v": 0.0, "cm_head_pos_v": 0.0, "cm_head_neg_v": 0.0,
                           "iout_a": 1.0, "supply_min_v": 1.0, "supply_max_v": 100.0,
                           "qty": 1.0, "channels": 1.0, "iq_a": 1e-3,
-                          "theta_ja_c_per_w": 1.0, "tj_max_c": 200.0, "vdiff_max_v": 100.0}
+                          "theta_ja_c_per_w": 1.0, "tj_max_c": 200.0, "vdiff_max_v": 100.0,
+                          "pm_unity_deg": 90.0, "cin_diff_f": 0.0, "cin_cm_f": 0.0}
     sel = select(pd.DataFrame(list(rows.values()), index=list(rows)), req)
     assert [e.part for e in sel.accepted] == ["k=1.02"]
     assert sel.rejected[0].fails == ["phase"]

@@ -32,7 +32,8 @@ def ideal_part() -> dict[str, float]:
             "out_rsat_pos_ohm": 0.0, "out_rsat_neg_ohm": 0.0,
             "cm_head_pos_v": 0.0, "cm_head_neg_v": 0.0, "iout_a": 1.0, "supply_min_v": 1.0,
             "supply_max_v": 100.0, "qty": 10.0, "channels": 1.0, "iq_a": 1e-3,
-            "theta_ja_c_per_w": 1.0, "tj_max_c": 200.0, "vdiff_max_v": 100.0}
+            "theta_ja_c_per_w": 1.0, "tj_max_c": 200.0, "vdiff_max_v": 100.0,
+            "pm_unity_deg": 90.0, "cin_diff_f": 0.0, "cin_cm_f": 0.0}
 
 
 def test_worst_case_and_rss_spread_of_a_two_resistor_ratio() -> None:

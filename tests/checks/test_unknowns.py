@@ -47,7 +47,8 @@ def roomy(s: Spec) -> dict[str, float]:
             "vos_v": 1e-6, "drift_v_per_c": 1e-9, "ib_a": 1e-12, "ios_a": 1e-13,
             "en_v_per_rthz": 1e-9, "in_a_per_rthz": 1e-15, "qty": 10.0, "available": 10.0,
             "channels": 1.0, "iq_a": 1e-3, "theta_ja_c_per_w": 1.0, "tj_max_c": 200.0,
-            "vdiff_max_v": 1e3, "psrr_db": 200.0}
+            "vdiff_max_v": 1e3, "psrr_db": 200.0, "pm_unity_deg": 80.0, "cin_diff_f": 1e-15,
+            "cin_cm_f": 1e-15}
 
 
 @pytest.mark.parametrize("options", STAGES, ids=lambda o: o["topology"])

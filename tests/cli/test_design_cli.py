@@ -97,10 +97,10 @@ def test_pick_nearest_misses_when_nothing_passes(db: str) -> None:
 
 def test_why_shows_every_check_with_formula(db: str) -> None:
     out = run("why", "bip-gp-a", *STAGE, "--db", db).stdout
-    for name in ("swing", "common_mode", "slew", "gain_accuracy", "output_current", "supply",
-                 "dissipation", "input_protection", "stock"):
+    for name in ("swing", "common_mode", "slew", "gain_accuracy", "stability", "output_current",
+                 "supply", "dissipation", "input_protection", "stock"):
         assert re.search(rf"^\[(PASS|FAIL|UNKNOWN)\] {name}:", out, re.M), name
-    assert out.count("formula:") == 9 and "Verdict: bip-gp-a" in out
+    assert out.count("formula:") == 10 and "Verdict: bip-gp-a" in out
     # bip-gp-a has 0.5 V/µs in picker/data/demo_stockroom.csv; the stage needs 0.785 V/µs (64%)
     assert "[FAIL] slew: needs >= 0.785 V/µs, has 0.5 V/µs (64%)" in out
 

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 import math
+from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
@@ -34,11 +35,25 @@ rg = "400"
 """
 
 
-def demo_part(label: str) -> Part:
+def demo_part(label: str, two_pole: bool = False) -> Part:
+    """The demo part as the macromodel: single pole, no input capacitance (the waveform's
+    model), or with ``two_pole`` the bode model: the second pole from the follower phase
+    margin (its derivation checked against ngspice in tests/checks/test_stability_spice.py)
+    and the input capacitances."""
+    import math
+
     import pandas as pd
 
+    from picker.circuit.opamp import second_pole
+
     row = pd.read_csv(DEMO, index_col="label").loc[label]
-    return Part(**{k: float(row[k]) for k in Part.__dataclass_fields__})
+    stab = ("cin_diff_f", "cin_cm_f", "fp2_hz")
+    part = Part(**{k: float(row[k]) for k in Part.__dataclass_fields__ if k not in stab})
+    if not two_pole:
+        return part
+    w2 = float(second_pole(row["pm_unity_deg"], row["gbw_hz"], row["aol_v_per_v"]))
+    return replace(part, cin_diff_f=float(row["cin_diff_f"]), cin_cm_f=float(row["cin_cm_f"]),
+                   fp2_hz=None if math.isinf(w2) else w2 / (2 * math.pi))
 
 
 def design_file(tmp_path: Path, freq: str) -> str:
@@ -79,9 +94,11 @@ def test_wave_limits_for_the_gain_20_stage(db: str, tmp_path: Path) -> None:
 def test_bode_json_matches_ngspice(db: str, tmp_path: Path) -> None:
     design = design_file(tmp_path, "20kHz")
     js = json.loads(run("bode", "bip-gp-a", "--design", design, "--json", "--db", db).stdout)
-    assert set(js) == {"part", "f3db", "gain_at_f", "phase_at_f"}
+    assert set(js) == {"part", "f3db", "gain_at_f", "phase_at_f", "phase_margin_deg",
+                       "crossover_hz", "peaking_db"}
     req = load_design(design)
-    f, g, at_f = ac(req, demo_part("bip-gp-a"), tmp_path, fstart=1, fstop=1e9, at=20e3)
+    f, g, at_f = ac(req, demo_part("bip-gp-a", two_pole=True), tmp_path, fstart=1, fstop=1e9,
+                    at=20e3)
     # source: ngspice .ac of the same macromodel: -3 dB within 1 %, 0.1 dB, 1 degree
     assert_allclose(js["f3db"], f3db(f, g), rtol=0.01)
     assert_allclose(js["gain_at_f"], 20 * math.log10(abs(at_f)), atol=0.1)

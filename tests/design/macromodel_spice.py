@@ -19,7 +19,19 @@ model. The op-amp is
   (x clamped behind Ro): for picker that is Rsat = Ro (``Part.frame``).
 
 Small-signal (.ac) the clamps are inactive and the model is the single-pole VCVS with
-Rin and Ro. SPICE reads ``M`` as milli, so numbers are written in plain exponent form.
+Rin and Ro.
+
+Optional, for the stability tests: the input capacitances (``cin_diff_f`` between the
+inputs, ``cin_cm_f`` from each input to the reference), a second open-loop pole
+``fp2_hz`` (an RC stage after the integrator: x2 follows x through 1 Ω and
+1/(2π·fp2) F, and the output stage reads x2), a load capacitance ``cload`` (from the
+requirement), an isolation resistor ``riso`` between the output pin and the load (the
+feedback stays at the pin) and a feedback capacitor ``cf`` across rf. ``broken=True``
+opens the loop for the .ac loop gain: a large inductor (1 MH: DC closed, AC open) between
+the gain stage's node and the node the output stage reads, and a large capacitor (1 MF)
+injecting the AC test source there. The output stage reads that node as a behavioural
+voltage (no current drawn), so opening the loop there loses no loading:
+T = -v(gain stage)/v(injected node), the stage's own source set to 0. SPICE reads ``M`` as milli, so numbers are written in plain exponent form.
 """
 
 from __future__ import annotations
@@ -49,11 +61,15 @@ class Part:
     out_head_neg_v: float
     out_rsat_pos_ohm: float | None = None
     out_rsat_neg_ohm: float | None = None
+    cin_diff_f: float | None = None
+    cin_cm_f: float | None = None
+    fp2_hz: float | None = None  # second open-loop pole (not a part field: derived)
 
     def frame(self, label: str = "ref-part"):  # type: ignore[no-untyped-def]
         import pandas as pd
 
         d = dict(self.__dict__)
+        d.pop("fp2_hz")
         for k in ("out_rsat_pos_ohm", "out_rsat_neg_ohm"):
             if d[k] is None:  # x clamped behind Ro: the headroom grows by Ro·I
                 d[k] = self.rout_ohm
@@ -64,7 +80,8 @@ def _n(v: float) -> str:
     return f"{v:.12e}"
 
 
-def _source_and_network(req: Requirement, ac: bool, freq_hz: float) -> list[str]:
+def _source_and_network(req: Requirement, ac: bool, freq_hz: float, *, riso: float = 0.0,
+                        cf: float = 0.0, broken: bool = False) -> list[str]:
     net = dict(req.network or {})
     rs = req.source_ohm
 
@@ -93,29 +110,50 @@ def _source_and_network(req: Requirement, ac: bool, freq_hz: float) -> list[str]
                   series("sp", "a", "Rsp", rs), series("sn", "b", "Rsn", rs),
                   f"R3 a vp {_n(net['r3'])}", f"R4 vp ref {_n(net['r4'])}",
                   f"R1 b vn {_n(net['r1'])}", f"R2 out vn {_n(net['r2'])}"]
+    if cf > 0:
+        lines.append(f"Cf out vn {_n(cf)}")
+    load = "out"
+    if riso > 0:
+        lines.append(f"Riso out ld {_n(riso)}")
+        load = "ld"
     if req.load_ohm is not None:
-        lines.append(f"RL out ref {_n(req.load_ohm)}")
+        lines.append(f"RL {load} ref {_n(req.load_ohm)}")
+    if req.cload_f > 0:
+        lines.append(f"CL {load} ref {_n(req.cload_f)}")
     return lines
 
 
 def netlist(req: Requirement, part: Part, control: list[str], *, ac: bool,
-            freq_hz: float | None = None) -> str:
+            freq_hz: float | None = None, riso: float = 0.0, cf: float = 0.0,
+            broken: bool = False) -> str:
     f = freq_hz or req.freq_hz
     wu = 2 * math.pi * part.gbw_hz
     wp = wu / part.aol_v_per_v
     hi = req.rail_pos - part.out_head_pos_v
     lo = req.rail_neg + part.out_head_neg_v
     rp, rn = part.out_rsat_pos_ohm, part.out_rsat_neg_ohm
-    io = f"(v(x)-v(out))/{_n(part.rout_ohm)}"
+    xo = "x" if part.fp2_hz is None else "x2"
+    xr = "xb" if broken else xo  # the node the output stage reads
+    io = f"(v({xr})-v(out))/{_n(part.rout_ohm)}"
     if rp is not None and rn is not None:
         io = f"max(min({io}, ({_n(hi)}-v(out))/{_n(rp)}), ({_n(lo)}-v(out))/{_n(rn)})"
         x_hi, x_lo = hi + part.rout_ohm * part.iout_a, lo - part.rout_ohm * part.iout_a
     else:
         x_hi, x_lo = hi, lo
+    net = _source_and_network(req, ac, f, riso=riso, cf=cf)
+    extra = []
+    if part.cin_diff_f:
+        extra.append(f"Cind vp vn {_n(part.cin_diff_f)}")
+    if part.cin_cm_f:
+        extra += [f"Ccmp vp ref {_n(part.cin_cm_f)}", f"Ccmn vn ref {_n(part.cin_cm_f)}"]
+    if part.fp2_hz is not None:
+        extra += ["R2p x x2 1", f"C2p x2 ref {_n(1 / (2 * math.pi * part.fp2_hz))}"]
+    if broken:
+        extra += [f"Lbrk {xo} xb 1e6", "Cinj xb tst 1e6", "Vtst tst ref DC 0 AC 1"]
     body = [
         "* picker waveform reference: behavioural op-amp macromodel",
         f"Vref ref 0 DC {_n(req.ref)}",
-        *_source_and_network(req, ac, f),
+        *net, *extra,
         f"Rin vp vn {_n(part.rin_ohm)}",
         "Cx x 0 1",
         f"Bint 0 x I = min(max({_n(wu)}*v(vp,vn) - {_n(wp)}*(v(x)-v(ref)), "
@@ -167,6 +205,22 @@ def ac(req: Requirement, part: Part, tmp_path: Path, *, fstart: float, fstop: fl
                f"ac lin 1 {_n(at)} {_n(at)}", "wrdata @OUT1@ v(out)"]
     sweep, point = _ngspice(netlist(req, part, control, ac=True), tmp_path, name, outputs=2)
     return sweep[:, 0], sweep[:, 1] + 1j * sweep[:, 2], complex(point[0, 1], point[0, 2])
+
+
+def ac_sweep(req: Requirement, part: Part, tmp_path: Path, *, fstart: float, fstop: float,
+             per_decade: int = 200, riso: float = 0.0, cf: float = 0.0, broken: bool = False,
+             probe: str = "v(out)", name: str = "acs") -> tuple[np.ndarray, np.ndarray]:
+    """ngspice .ac log sweep: (f, complex probe) (with ``broken`` the loop is opened)."""
+    if broken:
+        probe = f"-v({'x' if part.fp2_hz is None else 'x2'})/v(xb)"
+    control = [f"ac dec {per_decade} {_n(fstart)} {_n(fstop)}", f"wrdata @OUT0@ {probe}"]
+    text = netlist(req, part, control, ac=True, riso=riso, cf=cf, broken=broken)
+    if broken:  # the stage's own source off: only the test source drives the loop
+        text = "\n".join(line.replace(" AC 1 0", " AC 0 0").replace(" AC 0.5 0", " AC 0 0")
+                         .replace(" AC 0.5 180", " AC 0 0")
+                         if line.startswith("Vs") else line for line in text.splitlines()) + "\n"
+    (data,) = _ngspice(text, tmp_path, name)
+    return data[:, 0], data[:, 1] + 1j * data[:, 2]
 
 
 def f3db(f: np.ndarray, g: np.ndarray) -> float:

@@ -45,6 +45,7 @@ def comfortable(s: Spec) -> dict[str, float]:
         "en_v_per_rthz": 0.0, "in_a_per_rthz": 0.0, "qty": 1000.0, "channels": 1.0,
         "iq_a": 1e-3, "theta_ja_c_per_w": 1.0, "tj_max_c": s.requirement.temp_max_c + 100.0,
         "vdiff_max_v": 10 * s.requirement.vin + 1.0, "psrr_db": 200.0,
+        "pm_unity_deg": 89.9, "cin_diff_f": 0.0, "cin_cm_f": 0.0,
     }  # type: ignore[dict-item]
 
 
@@ -64,6 +65,26 @@ def input_step(s: Spec) -> float:
     st = s.stage
     to_n = 0.0 if math.isinf(st.rg) else st.kg * st.rf / (st.rg + st.rf)
     return 2 * s.requirement.vin * abs(st.kp - to_n)
+
+
+def follower_margin_for(s: Spec, gbw_hz: float, pm_stage_deg: float) -> float:
+    """The follower phase margin that gives the stage ``pm_stage_deg``, written out.
+
+    With Ro = 0, no input capacitance and Rin -> ∞ the feedback factor is 1/NG at every
+    frequency, and with A0 -> ∞ the two-pole loop T = ωu/(NG·s·(1 + s/ωp2)) has
+    PM = 90° - atan(ωc/ωp2) at ωc = (ωu/NG)·sin PM; as a follower (NG = 1) the same
+    relation gives ωp2 = ωu·sin²PMu/cos PMu, solved for cos PMu (two-pole phase margin,
+    e.g. Franco, Design with Operational Amplifiers and Analog Integrated Circuits, 4th ed.,
+    ch. 6, from memory).
+    """
+    ng = s.stage.noise_gain
+    pm = math.radians(pm_stage_deg)
+    wu = 2 * math.pi * gbw_hz
+    wc = wu / ng * math.sin(pm)
+    wp2 = wc * math.tan(pm)  # ωc/ωp2 = tan(90° - PM)
+    r = wp2 / wu
+    c = (-r + math.sqrt(r * r + 4)) / 2
+    return math.degrees(math.acos(c))
 
 
 def output_noise(s: Spec, part: dict[str, float]) -> float:
@@ -109,6 +130,12 @@ def variants(s: Spec, k: float) -> dict[str, dict[str, float]]:
     out["gain_accuracy_a0"] = {**at_min, "aol_v_per_v": k * mn.aol_v_per_v}
     if mn.rin_ohm is not None:
         out["gain_accuracy_rin"] = {**at_min, "rin_ohm": k * rin}
+    need = req.phase_margin_deg
+    out["stability_pm"] = {**base, "pm_unity_deg": follower_margin_for(s, base["gbw_hz"],
+                                                                       k * need)}
+    # the part's minimum stable noise gain 2% below (pass) or above (fail) the stage's
+    # (common practice, no source: a decompensated part needs NG >= its minimum)
+    out["stability_min_noise_gain"] = {**base, "min_noise_gain": st.noise_gain / k}
     if req.offset_max_v is not None:
         ng = 1 + (0 if math.isinf(st.rg) else st.rf / st.rg)
         # offset = NG·Vos with no bias currents and no drift (Franco, 4th ed., ch. 5, from memory)
@@ -127,6 +154,7 @@ def variants(s: Spec, k: float) -> dict[str, dict[str, float]]:
 
 
 CHECK_OF = {"supply_max": "supply", "supply_min": "supply", "gain_accuracy_gbw": "gain_accuracy",
+            "stability_pm": "stability", "stability_min_noise_gain": "stability",
             "gain_accuracy_a0": "gain_accuracy", "gain_accuracy_rin": "gain_accuracy"}
 
 
@@ -136,7 +164,7 @@ def test_comfortable_part_passes_everything(case: dict[str, Any]) -> None:
     table = run_checks(pd.DataFrame([comfortable(s)], index=["comfortable"]), s)
     assert {n: r.status(0) for n, r in table.results.items()} == {n: "pass" for n in table.results}
     rejection = {"common_mode_rejection"} if s.requirement.topology == "difference" else set()
-    assert set(table.results) == {"swing", "common_mode", "slew", "gain_accuracy",
+    assert set(table.results) == {"swing", "common_mode", "slew", "gain_accuracy", "stability",
                                   "output_current", "supply", "dissipation",
                                   "input_protection", "offset", "noise", "stock"} | rejection
 

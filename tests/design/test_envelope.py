@@ -37,7 +37,8 @@ def _parts() -> Parts:
     for label, p in PARTS.items():
         d = p.frame(label).iloc[0].to_dict()
         d.update(supply_min_v=5, supply_max_v=36, cm_head_pos_v=1.5, cm_head_neg_v=1.5,
-                 qty=10, channels=1, label=label)
+                 qty=10, channels=1, label=label, pm_unity_deg=90.0, cin_diff_f=0.0,
+                 cin_cm_f=0.0)
         rows.append(d)
     frame = pd.DataFrame(rows).set_index("label")
     frame["available"] = frame["qty"]

@@ -26,7 +26,8 @@ def part(**changes: float) -> dict[str, float]:
             "out_rsat_pos_ohm": 20.0, "out_rsat_neg_ohm": 20.0,
             "cm_head_pos_v": 1.0, "cm_head_neg_v": 1.0, "iout_a": 0.03, "supply_min_v": 5.0,
             "supply_max_v": 36.0, "qty": 10.0, "channels": 1.0, "price": 1.0,
-            "iq_a": 1e-3, "theta_ja_c_per_w": 100.0, "tj_max_c": 150.0, "vdiff_max_v": 30.0}
+            "iq_a": 1e-3, "theta_ja_c_per_w": 100.0, "tj_max_c": 150.0, "vdiff_max_v": 30.0,
+            "pm_unity_deg": 70.0, "cin_diff_f": 0.0, "cin_cm_f": 0.0}
     return {**base, **changes}
 
 
@@ -73,11 +74,13 @@ def test_json_shape() -> None:
     assert set(js) == {"spec", "accepted", "rejected", "unverified", "nearest"}
     assert set(js["spec"]) == {"signal_gain", "noise_gain", "margin", "min", "budget"}
     assert tuple(js["spec"]["min"]) == tuple(f.name for f in fields(Minimums))
-    assert set(js["accepted"][0]) == {"part", "phase_at_f_deg", "checks"}
-    assert set(js["rejected"][0]) == {"part", "fails", "phase_at_f_deg", "checks"}
+    assert set(js["accepted"][0]) == {"part", "phase_at_f_deg", "phase_margin_deg", "peaking_db",
+                                      "checks"}
+    assert set(js["rejected"][0]) == {"part", "fails", "phase_at_f_deg", "phase_margin_deg",
+                                      "peaking_db", "checks"}
     checks = js["accepted"][0]["checks"]
-    assert list(checks) == ["swing", "common_mode", "slew", "gain_accuracy", "output_current",
-                            "supply", "dissipation", "input_protection", "stock"]
+    assert list(checks) == ["swing", "common_mode", "slew", "gain_accuracy", "stability",
+                            "output_current", "supply", "dissipation", "input_protection", "stock"]
     for name, record in checks.items():
         extra = {"power_w", "tj_c"} if name == "dissipation" else set()
         assert set(record) == {"status", "need", "has", "margin"} | extra
@@ -116,8 +119,8 @@ def test_parts_with_nothing_recorded_are_unverified_not_passed() -> None:
     sel = select(bare, req)
     assert sel.accepted == [] and sel.rejected == []
     assert sel.unverified[0].unknown == ["swing", "common_mode", "slew", "gain_accuracy",
-                                         "output_current", "supply", "dissipation",
-                                         "input_protection", "offset", "noise"]
+                                         "stability", "output_current", "supply",
+                                         "dissipation", "input_protection", "offset", "noise"]
     assert by_name("offset").needed(sel.spec) == ("vos_v", "ib_a", "ios_a")  # no drift at 25 °C
     empty = select(PARTS.iloc[:0], REQ)
     assert (empty.accepted, empty.rejected, empty.unverified, empty.nearest) == ([], [], [], [])

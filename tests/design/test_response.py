@@ -67,7 +67,8 @@ def test_unknown_gbw_gives_no_response() -> None:
     got = response(CASES_AC[0][2], frame)
     assert list(got.known) == [True, False]
     assert got.summary(1) == {"part": "blank", "f3db": None, "gain_at_f": None,
-                              "phase_at_f": None}
+                              "phase_at_f": None, "phase_margin_deg": None,
+                              "crossover_hz": None, "peaking_db": None}
     # the sweep spans the top frequency and the -3 dB point
     assert got.freqs[0] < min(got.freq_hz, got.f3db[0]) / 10
     assert got.freqs[-1] > max(got.freq_hz, got.f3db[0]) * 5

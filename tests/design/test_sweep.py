@@ -30,7 +30,8 @@ def _clean(**changes: float) -> Parts:
     row.update(pd.Series({"gbw_hz": 1e12, "aol_v_per_v": 1e9, "rin_ohm": 1e15,
                           "rout_ohm": 0.0, "iout_a": 10.0, "vos_v": 0.0,
                           "drift_v_per_c": 0.0, "ib_a": 0.0, "ios_a": 0.0,
-                          "slew_v_per_s": 1e12, **changes}))
+                          "slew_v_per_s": 1e12, "pm_unity_deg": 90.0, "cin_diff_f": 0.0,
+                          "cin_cm_f": 0.0, **changes}))
     return Parts(pd.DataFrame([row], index=pd.Index(["clean"], name="label")))
 
 

@@ -23,7 +23,8 @@ def good_part(**changes: float) -> dict[str, float]:
             "rout_ohm": 0.0, "out_head_pos_v": 0.0, "out_head_neg_v": 0.0,
             "out_rsat_pos_ohm": 0.0, "out_rsat_neg_ohm": 0.0, "cm_head_pos_v": 0.0, "cm_head_neg_v": 0.0, "iout_a": 1.0, "supply_min_v": 1.0,
             "supply_max_v": 100.0, "qty": 10.0, "channels": 1.0, "iq_a": 1e-3,
-            "theta_ja_c_per_w": 1.0, "tj_max_c": 200.0, "vdiff_max_v": 100.0}
+            "theta_ja_c_per_w": 1.0, "tj_max_c": 200.0, "vdiff_max_v": 100.0,
+            "pm_unity_deg": 90.0, "cin_diff_f": 0.0, "cin_cm_f": 0.0}
     return {**base, **changes}
 
 
