@@ -252,10 +252,13 @@ def simulate(st: Stage, parts: Mapping[str, Any], freq_hz: float,
         db = 20 * np.log10(np.abs(g)) + nan[:, None]
         at_db = 20 * np.log10(np.abs(at_f)) + nan
         dc_db = 20 * np.log10(np.abs(dc)) + nan
-    phase = np.degrees(np.unwrap(np.angle(g), axis=1)) + nan[:, None]
+    # phase relative to the ideal stage (an inverting stage's 180° taken out), the
+    # convention of the phase check (picker.checks.gain.phase_deg): -7°, not +173°
+    sign = 1.0 if st.ideal_gain >= 0 else -1.0
+    phase = np.degrees(np.unwrap(np.angle(g * sign), axis=1)) + nan[:, None]
     return Response(labels=labels, freq_hz=freq_hz, freqs=axis, gain_db=db, phase_deg=phase,
                     f3db=f3, dc_gain_db=dc_db, gain_at_f=at_db,
-                    phase_at_f=np.degrees(np.angle(at_f)) + nan, known=known,
+                    phase_at_f=np.degrees(np.angle(at_f * sign)) + nan, known=known,
                     phase_margin=mg_pm, crossover=mg_fc, peaking=mg_peak)
 
 

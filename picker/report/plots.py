@@ -159,7 +159,7 @@ def bode_figure(resp: Response, i: int, size_px: tuple[int, int] = BODE_SIZE) ->
         ax_g.plot([f3], [resp.dc_gain_db[i] - 10 * math.log10(2)], marker="s",
                   markerfacecolor="white", color="black", linestyle="none")
     ax_g.set_ylabel("gain [dB]")
-    ax_p.set_ylabel("phase [°]")
+    ax_p.set_ylabel("phase from the ideal stage [°]")
     ax_p.set_xlabel("frequency [Hz]")
     ax_p.xaxis.set_major_formatter(EngFormatter(unit="Hz"))
     ax_g.legend(loc="lower left", fontsize="small", framealpha=0.9)

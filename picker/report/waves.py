@@ -81,7 +81,11 @@ def bode_text(resp: Response, i: int, req: Requirement) -> str:
         ["DC gain", f"{resp.dc_gain_db[i]:.3f} dB"],
         ["-3 dB frequency", fmt(f3, "frequency") if math.isfinite(f3) else "none"],
         [f"gain at {fmt(resp.freq_hz, 'frequency')}", f"{resp.gain_at_f[i]:.3f} dB"],
-        [f"phase at {fmt(resp.freq_hz, 'frequency')}", f"{resp.phase_at_f[i]:.2f}°"],
+        [f"phase at {fmt(resp.freq_hz, 'frequency')}",
+         f"{resp.phase_at_f[i]:.2f}° (from the ideal stage; an inversion's 180° taken out)"],
+        ["plotted span", f"{fmt(float(resp.freqs[0]), 'frequency')} .. "
+                         f"{fmt(float(resp.freqs[-1]), 'frequency')} (two decades around the "
+                         "top frequency and the -3 dB point)"],
         ["phase margin", stability_text(resp, i)],
         ["closed-loop peaking", "-" if math.isnan(resp.peaking[i])
          else f"{resp.peaking[i]:.2f} dB"],

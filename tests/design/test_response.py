@@ -40,7 +40,9 @@ def test_response_matches_ngspice_ac(name: str, part: Part, req: Requirement,
     assert_allclose(got.f3db[0], f3db(f, g), rtol=0.01)
     # source: ngspice .ac at the top frequency, 0.1 dB and 1 degree
     assert_allclose(got.gain_at_f[0], 20 * math.log10(abs(at_f)), atol=0.1)
-    dphase = (got.phase_at_f[0] - math.degrees(np.angle(at_f)) + 180) % 360 - 180
+    # picker states the phase from the ideal stage: an inverting stage's 180° taken out
+    sign = 1.0 if stage(req).ideal_gain >= 0 else -1.0
+    dphase = (got.phase_at_f[0] - math.degrees(np.angle(at_f * sign)) + 180) % 360 - 180
     assert_allclose(dphase, 0.0, atol=1.0)
     # source: ngspice .ac, the whole sweep (gain within 0.1 dB where the sweeps overlap)
     ours = response(req, part.frame(), freqs=f[::200])
@@ -72,3 +74,14 @@ def test_unknown_gbw_gives_no_response() -> None:
     # the sweep spans the top frequency and the -3 dB point
     assert got.freqs[0] < min(got.freq_hz, got.f3db[0]) / 10
     assert got.freqs[-1] > max(got.freq_hz, got.f3db[0]) * 5
+
+
+def test_an_inverting_stage_reads_its_phase_from_the_ideal_inversion() -> None:
+    """Far below the closed-loop pole an inverting stage lags the ideal inversion by
+    almost nothing: picker shows about 0°, not 180° (the phase check's convention)."""
+    req = Requirement(topology="inverting", gain=10, rail_pos=15, rail_neg=-15, freq_hz=10.0,
+                      vin_pk=0.1, network={"rf": 100e3, "rg": 10e3})
+    got = response(req, GP.frame())
+    # source: single-pole closed loop, phase -atan(f/fc) with fc = GBW/NG = 1 MHz/11
+    # (common practice, no source)
+    assert_allclose(got.phase_at_f[0], -math.degrees(math.atan(10.0 / (1e6 / 11))), atol=0.01)

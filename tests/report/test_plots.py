@@ -59,7 +59,7 @@ def test_bode_png(tmp_path: Path) -> None:
     _png_ok(path, (800, 700))
     ax_g, ax_p = fig.axes
     assert "general purpose B" in ax_g.get_title()
-    assert ax_g.get_ylabel() == "gain [dB]" and ax_p.get_ylabel() == "phase [°]"
+    assert ax_g.get_ylabel() == "gain [dB]" and ax_p.get_ylabel() == "phase from the ideal stage [°]"
     assert ax_p.get_xlabel() == "frequency [Hz]"
     assert ax_g.get_xscale() == "log" and ax_p.get_xscale() == "log"
     marks = {ln.get_linestyle(): ln.get_xdata()[0] for ln in ax_g.get_lines()
