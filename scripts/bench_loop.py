@@ -131,6 +131,8 @@ def check_rows(cols: Mapping[str, list[float]], spec: Any) -> dict[str, list[flo
     # input protection: a 2·Vp,in step with the output held (picker.checks.protection)
     to_n = 0.0 if math.isinf(st.rg) or st.rg + st.rf == 0 else st.kg * st.rf / (st.rg + st.rf)
     step_need = 2 * req.vin * abs(st.kp - to_n)
+    step_path = st.zp + (st.rf if math.isinf(st.rg) else
+                         (st.rg * st.rf / (st.rg + st.rf) if st.rg + st.rf > 0 else 0.0))
     ripple = None if req.ripple is None else req.ripple[0] * ng
     cin_matters = req.source_ohm > 0  # the source pole (picker.checks.gain)
     pm_need = req.phase_margin_deg
@@ -245,7 +247,9 @@ def check_rows(cols: Mapping[str, list[float]], spec: Any) -> dict[str, list[flo
         if any(math.isnan(x) for x in (ch, iq, theta)) and not m < 1:
             m = nan
         out["dissipation"].append(m)
-        out["input_protection"].append(_at_least(step_need, row["vdiff_max_v"]))
+        vmax = row["vdiff_max_v"]  # clamped inputs: the path limits the current
+        out["input_protection"].append(_at_least(step_need, vmax + 10e-3 * step_path
+                                                 if vmax <= 2.0 else vmax))
         psrr = row.get("psrr_db", nan)
         rip = 0.0 if ripple is None or math.isnan(psrr) else ripple * 10 ** (-psrr / 20)
         rip_unknown = ripple is not None and math.isnan(psrr)

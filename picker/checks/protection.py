@@ -17,6 +17,14 @@ Horowitz and Hill, The Art of Electronics, 3rd ed., ch. 4, from memory). Margin
 ``vdiff_max/Vdiff``; not scaled by the design margin (the amplitude is the stated
 largest signal, an absolute maximum the limit).
 
+What the part tolerates: an absolute maximum above ``CLAMP_MAX_V`` is a voltage the
+inputs may never see. One of ``CLAMP_MAX_V`` or less (about a diode drop or two) is the
+voltage of clamp diodes between the inputs: a larger step only drives a current through
+them, which the resistance already between the pins limits, so the part tolerates
+``vdiff_max + CLAMP_CURRENT_A·(zp + rg‖rf)`` (common practice, no source: datasheets of
+parts with input clamps give the clamp voltage as the absolute maximum and ask for the
+current to be limited).
+
 When a part fails, ``detail`` names the series resistance that keeps the current of the
 inputs' clamp at ``CLAMP_CURRENT_A`` (10 mA, a usual absolute-maximum input current:
 common practice, no source), the clamp taken to hold about ``vdiff_max``, counting the
@@ -30,6 +38,9 @@ from __future__ import annotations
 import math
 from typing import TYPE_CHECKING
 
+import numpy as np
+import numpy.typing as npt
+
 from picker.checks import Check
 from picker.checks.accuracy import BOLTZMANN
 from picker.checks.core import CheckResult, Parts, result
@@ -42,6 +53,9 @@ if TYPE_CHECKING:
 
 #: The clamp current a suggested series resistor limits to, A (common practice, no source).
 CLAMP_CURRENT_A = 10e-3
+#: An absolute maximum differential input voltage up to this is taken as input clamp
+#: diodes (common practice, no source), V.
+CLAMP_MAX_V = 2.0
 
 
 def step_factor(st: Stage) -> float:
@@ -70,8 +84,18 @@ def series_for_clamp(s: Spec, vdiff_max: float) -> float:
     return max(0.0, need - path_resistance(s.stage))
 
 
+def tolerated(s: Spec, vdiff_max: npt.ArrayLike) -> npt.NDArray[np.float64]:
+    """The largest differential step each part tolerates in this stage, V: its absolute
+    maximum, or for clamped inputs (<= CLAMP_MAX_V) the clamp voltage plus what the
+    path resistance drops at CLAMP_CURRENT_A (module docstring)."""
+    v = np.asarray(vdiff_max, dtype=float)
+    with np.errstate(invalid="ignore"):
+        return np.where(v <= CLAMP_MAX_V, v + CLAMP_CURRENT_A * path_resistance(s.stage), v)
+
+
 def _run(p: Parts, s: Spec) -> CheckResult:
-    return result("input_protection", "voltage", ">=", differential_step(s), p["vdiff_max_v"])
+    return result("input_protection", "voltage", ">=", differential_step(s),
+                  tolerated(s, p["vdiff_max_v"]))
 
 
 def _explain(s: Spec) -> list[Explained]:
@@ -90,6 +114,8 @@ def _detail(s: Spec, p: Parts, i: int) -> str:
     v = differential_step(s)
     if math.isnan(vmax) or vmax >= v:
         return text
+    if vmax > CLAMP_MAX_V:
+        return text + " (no input clamps: the step itself is too large; limit the input)"
     r = series_for_clamp(s, vmax)
     path = path_resistance(s.stage)
     limit = fmt(CLAMP_CURRENT_A, "current")
@@ -109,8 +135,9 @@ def _detail(s: Spec, p: Parts, i: int) -> str:
 
 INPUT_PROTECTION = Check(
     name="input_protection", kind="voltage", reads=("vdiff_max_v",), run=_run,
-    formula="Vdiff max >= 2·Vp,in·|kp - kg·rf/(rg + rf)| (model: the input's full "
-            "peak-to-peak step arrives before the output moves; output held)",
+    formula="tolerated >= 2·Vp,in·|kp - kg·rf/(rg + rf)| (model: the input's full "
+            "peak-to-peak step arrives before the output moves; output held); tolerated = "
+            "Vdiff max, or for input clamps (Vdiff max <= 2 V) Vdiff max + 10 mA·(zp + rg‖rf)",
     explain=_explain, detail=_detail, amplitude="proportional")
 
 

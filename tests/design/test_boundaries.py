@@ -121,7 +121,14 @@ def variants(s: Spec, k: float) -> dict[str, dict[str, float]]:
         out["output_current"] = {**base, "iout_a": k * mn.iout_a}
     # Tj = Ta + θ·P at k times the headroom: θ = (Tj,max - Ta)/(k·P) (common practice)
     out["dissipation"] = {**base, "theta_ja_c_per_w": 100.0 / (k * package_power(s, base))}
-    out["input_protection"] = {**base, "vdiff_max_v": k * input_step(s)}
+    # clamped inputs (<= 2 V) tolerate 10 mA through the resistance between the pins
+    # more (Ohm's law; common practice, no source); a clamped part below the need may
+    # not exist when that resistance is large
+    step = k * input_step(s)
+    vdiff = step if step > 2 else step - 10e-3 * (st.zp + (st.rf if math.isinf(st.rg) else (
+        st.rg * st.rf / (st.rg + st.rf) if st.rg + st.rf > 0 else 0.0)))
+    if vdiff > 0:
+        out["input_protection"] = {**base, "vdiff_max_v": vdiff}
     out["supply_max"] = {**base, "supply_max_v": k * req.span}
     out["supply_min"] = {**base, "supply_min_v": req.span / k}
     rin = mn.rin_ohm or 1e15
