@@ -39,3 +39,20 @@ def test_defaults_are_stated_ones() -> None:
 def test_bad_values_name_the_option(extra: dict[str, str | None], match: str) -> None:
     with pytest.raises(PickerError, match=match):
         requirement_from({**BASE, **extra})
+
+
+@pytest.mark.parametrize(("key", "value"), [
+    ("cload", [1, 2]), ("cload", "1e999F"), ("cload", "１nF"), ("vcm", {"a": 1}),
+    ("vcm", [1, 2, 3]), ("ripple", 5), ("ripple", "50mV@１e999Hz"), ("phase_margin", True),
+    ("cmrr", "1e999dB"), ("cmrr", "-3dB"), ("f0", "abc"), ("zin", "-1k"),
+])
+def test_hostile_values_are_one_line_errors(key: str, value: object) -> None:
+    """Wrong TOML types, huge exponents and negative values for the new keys are refused
+    with a BadValue/BadRequirement naming the key; full-width digits are read as digits
+    (a value that then makes sense is accepted)."""
+    try:
+        requirement_from({**BASE, key: value})
+    except PickerError as exc:
+        assert key.replace("_", "-") in str(exc) and "\n" not in str(exc)
+    else:
+        assert isinstance(value, str) and any(ord(c) > 127 for c in value)
