@@ -15,82 +15,26 @@ from typing import Any, TypeVar
 import click
 
 from picker.cli.params import QuantityParam, RailsParam
+from picker.design.keys import KEYS as KEY_LIST
+from picker.design.keys import Key
 
 F = TypeVar("F", bound=Callable[..., Any])
 
-TOPOLOGY_CHOICE = click.Choice(["inverting", "non-inverting", "follower", "difference",
-                                "vcvs-lowpass", "vcvs-highpass", "mfb-lowpass", "mfb-bandpass"])
 
-# (parameter name, option, click type, help); requirement keys are the option names
-_OPTIONS: tuple[tuple[str, str, Any, str], ...] = (
-    ("topology", "--topology", TOPOLOGY_CHOICE, "stage topology"),
-    ("gain", "--gain", QuantityParam("gain", positive=True),
-     "signal-gain magnitude, V/V or dB (e.g. 10, 20dB); a follower has 1"),
-    ("vin", "--vin", QuantityParam("amplitude"),
-     "input amplitude with its form: 0.5Vpk, 1Vpp, 0.35Vrms (bare = peak)"),
-    ("vout", "--vout", QuantityParam("amplitude"), "output amplitude instead of --vin"),
-    ("freq", "--freq", QuantityParam("frequency", positive=True),
-     "top signal frequency (a sine), e.g. 20kHz (filters: default 10 x --f0)"),
-    ("ref", "--ref", QuantityParam("voltage"),
-     "DC level the signal rides on (default: mid-rail)"),
-    ("load", "--load", QuantityParam("resistance", positive=True),
-     "load resistance to the reference (default: none)"),
-    ("source", "--source", QuantityParam("resistance"), "source resistance (default 0)"),
-    ("rails", "--rails", RailsParam(), "supply rails: ±12, +12/-12, +5/0"),
-    ("gain_error", "--gain-error", QuantityParam("ratio", positive=True),
-     "largest closed-loop gain error at DC and at --freq (default 1%)"),
-    ("tolerance", "--tolerance", QuantityParam("ratio"),
-     "tolerance of the gain-setting resistors, inside the gain budget (default 1%)"),
-    ("tolerance_rule", "--tolerance-rule", click.Choice(["worst", "rss"]),
-     "how resistor tolerances add: worst case (default) or root-sum-square"),
-    ("phase_error", "--phase-error", QuantityParam("angle", positive=True),
-     "largest phase shift of the gain at --freq from the ideal, e.g. 5deg (default: shown, "
-     "not limited)"),
-    ("offset_max", "--offset-max", str, "largest DC output error, e.g. 20mV (default: not checked)"),
-    ("noise_max", "--noise-max", str,
-     "largest output RMS noise, e.g. 100uV (default: not checked)"),
-    ("temp", "--temp", str, "ambient, 85C or a range -40..85C (default 25C; drift from 25C)"),
-    ("qty", "--qty", click.IntRange(min=1, max=1_000_000_000), "channels needed (default 1)"),
-    ("margin", "--margin", click.FloatRange(min=1.0),
-     "design margin: needs x margin, allowed errors / margin (default 1.25; 1 = bare minimums)"),
-    ("rf", "--rf", QuantityParam("resistance", positive=True),
-     "the feedback resistor as built, kept exactly (default: designed, see picker net)"),
-    ("rg", "--rg", QuantityParam("resistance", positive=True),
-     "the gain leg as built, kept exactly: the inverting stage's input resistor, the "
-     "non-inverting stage's ground leg, r1 = r3 of the difference stage (default: designed)"),
-    ("rin", "--rin", QuantityParam("resistance", positive=True),
-     "inverting stage: its input resistor as built (another name for --rg)"),
-    ("zin", "--zin", QuantityParam("resistance", positive=True),
-     "least input impedance the source may see, inverting or difference (default: "
-     "max(10 kΩ, 10 x --source))"),
-    ("cload", "--cload", QuantityParam("capacitance"),
-     "capacitance at the output, e.g. 1nF (cable, ADC input; default 0)"),
-    ("vcm", "--vcm", str,
-     "difference stage: input common-mode level or range, e.g. 2.5V or -5..5V (default: ref)"),
-    ("cmrr", "--cmrr", QuantityParam("decibel"),
-     "difference stage: least common-mode rejection of the stage, e.g. 60dB"),
-    ("phase_margin", "--phase-margin", QuantityParam("angle", positive=True),
-     "least phase margin of the loop (default 45°)"),
-    ("ripple", "--ripple", str,
-     "supply ripple on each rail as amplitude@frequency, e.g. 50mVpp@100Hz (default: none)"),
-    ("f0", "--f0", QuantityParam("frequency", positive=True),
-     "filter: corner frequency (low-, high-pass) or centre (band-pass), e.g. 1kHz"),
-    ("response", "--response", click.Choice(["butterworth", "bessel", "chebyshev"]),
-     "filter: response shape of a low- or high-pass (default butterworth)"),
-    ("passband_ripple", "--passband-ripple", QuantityParam("decibel"),
-     "filter: pass-band ripple of a chebyshev response, e.g. 0.5dB"),
-    ("bandwidth", "--bandwidth", QuantityParam("frequency", positive=True),
-     "filter: -3 dB bandwidth of a band-pass (Q = f0/bandwidth)"),
-    ("cap_tolerance", "--cap-tolerance", QuantityParam("ratio"),
-     "filter: tolerance of the capacitors (default 5%)"),
-    ("cap_series", "--cap-series", click.Choice(["E6", "E12", "E24"], case_sensitive=False),
-     "filter: capacitor series (default E12)"),
-    ("response_error", "--response-error", QuantityParam("ratio", positive=True),
-     "filter: how far the op-amp may move f0, Q and gain from the network's (default 2%)"),
-)
+def _click_type(key: Key) -> Any:
+    """The click parameter type that converts ``key``'s option (picker.design.keys)."""
+    if key.kind == "choice":
+        return click.Choice(list(key.choices), case_sensitive=False)
+    special = {"text": str, "rails": RailsParam(), "number": click.FloatRange(min=1.0),
+               "count": click.IntRange(min=1, max=1_000_000_000)}
+    if key.kind in special:
+        return special[key.kind]
+    return QuantityParam(key.kind, positive=key.positive)  # type: ignore[arg-type]
 
-KEYS: tuple[str, ...] = tuple(name for name, *_ in _OPTIONS) + ("mains", "assume",
-                                                             "light_load_swing")
+
+#: The keys that are options (a design-file table such as ``network`` is not).
+_OPTION_KEYS: tuple[Key, ...] = tuple(k for k in KEY_LIST if k.kind != "table")
+KEYS: tuple[str, ...] = tuple(k.name.replace("-", "_") for k in _OPTION_KEYS)
 
 
 def requirement_options(f: F) -> F:
@@ -104,16 +48,17 @@ def requirement_options(f: F) -> F:
     cmd: Any = wrapper
     cmd = click.option("--design", metavar="FILE", type=click.Path(dir_okay=False),
                        help="TOML design file with the same keys (options override it)")(cmd)
-    cmd = click.option("--assume", metavar="FIELD=VALUE", multiple=True,
-                       help="take this value where a part leaves the field blank, e.g. "
-                       "rout=100 (marked assumed in every output; repeat for more)")(cmd)
-    cmd = click.option("--mains/--no-mains", default=None,
-                       help="the input comes from mains (shows a safety caution)")(cmd)
-    cmd = click.option("--light-load-swing/--no-light-load-swing", default=None,
-                       help="check a part without output saturation resistances with its "
-                            "light-load headroom (printed as assumed)")(cmd)
-    for name, opt, kind, text in reversed(_OPTIONS):
-        cmd = click.option(opt, name, type=kind, default=None, help=text)(cmd)
+    for key in reversed(_OPTION_KEYS):
+        opt = f"--{key.name}"
+        if key.kind == "flag":
+            cmd = click.option(f"{opt}/--no-{key.name}", key.name.replace("-", "_"),
+                               default=None, help=key.help)(cmd)
+        elif key.kind == "list":
+            cmd = click.option(opt, key.name.replace("-", "_"), metavar="FIELD=VALUE",
+                               multiple=True, help=key.help)(cmd)
+        else:
+            cmd = click.option(opt, key.name.replace("-", "_"), type=_click_type(key),
+                               default=None, help=key.help)(cmd)
     return cmd  # type: ignore[no-any-return]
 
 

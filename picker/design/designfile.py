@@ -1,7 +1,7 @@
 """Design files: a stage's requirement kept in TOML, to rerun later against the stock.
 
 ``template()`` is the commented file ``picker design new`` writes: every requirement key
-(picker.design.requirement.KEYS) with its unit, its default and an example; the keys a
+(picker.design.keys) with its unit, its default and an example; the keys a
 stage cannot do without are set to an example stage, the others commented out.
 ``design_text(values)`` writes a requirement as given (picker.design.requirement.given:
 a design file's values with the options over them) so that reading it back builds the
@@ -20,64 +20,8 @@ from collections.abc import Mapping, Sequence
 from pathlib import Path
 from typing import Any
 
-from picker.design.requirement import KEYS
+from picker.design.keys import BY_NAME, KEYS
 from picker.errors import BadValue
-
-# key -> (unit written after an SI number, or "" for a plain number; unit in words;
-# default; example value as TOML text; what it means)
-FIELDS: dict[str, tuple[str, str, str, str, str]] = {
-    "topology": ("", "", "none: required", '"inverting"',
-                 "inverting, non-inverting, follower or difference"),
-    "gain": (" V/V", "V/V or dB", "none: required (a follower has 1)", '"10"',
-             "signal-gain magnitude, e.g. 10 or 20dB"),
-    "vin": (" Vpk", "Vpk, Vpp or Vrms", "none: give vin or vout", '"0.5Vpk"',
-            "input amplitude with its form (a bare number is the peak)"),
-    "vout": (" Vpk", "Vpk, Vpp or Vrms", "none: give vin or vout", '"5Vpk"',
-             "output amplitude instead of vin"),
-    "freq": (" Hz", "Hz", "none: required", '"20kHz"', "top signal frequency (a sine)"),
-    "ref": (" V", "V", "mid-rail", '"0V"', "DC level the signal rides on"),
-    "load": (" Ω", "Ω", "none (no load)", '"2k"', "load resistance to the reference"),
-    "source": (" Ω", "Ω", "0", '"50"', "source resistance"),
-    "rails": ("", "V", "none: required", '"±12"', "supply rails: ±12, +12/-12, +5/0 or [12, -12]"),
-    "gain-error": ("", "ratio", "1%", '"1%"', "largest closed-loop gain error at DC and at freq"),
-    "tolerance": ("", "ratio", "1%", '"1%"', "tolerance of the gain-setting resistors"),
-    "tolerance-rule": ("", "", "worst", '"worst"', "how tolerances add: worst or rss"),
-    "phase-error": (" deg", "degrees", "none (shown, not limited)", '"5deg"',
-                    "largest phase shift of the gain at freq from the ideal"),
-    "offset-max": (" V", "V", "none (not checked)", '"20mV"', "largest DC output error"),
-    "noise-max": (" V", "V RMS", "none (not checked)", '"100uV"', "largest output RMS noise"),
-    "temp": ("", "°C", "25C", '"-40..85C"', "ambient, or a range low..high"),
-    "qty": ("", "channels", "1", "2", "channels needed"),
-    "margin": ("", "", "1.25", "1.25", "design margin: needs x margin, errors / margin"),
-    "rf": (" Ω", "Ω", "designed (E24)", '"10k"', "the feedback resistor, exact (never snapped)"),
-    "rg": (" Ω", "Ω", "designed (E24)", '"1k"',
-           "the gain leg, exact: inverting input resistor, non-inverting ground leg, r1 = r3"),
-    "rin": (" Ω", "Ω", "designed (E24)", '"10k"', "inverting stage: the input resistor (as rg)"),
-    "zin": (" Ω", "Ω", "max(10 kΩ, 10 x source)", '"10k"',
-            "least input impedance the source may see"),
-    "mains": ("", "", "false", "false", "the input comes from mains (a safety caution)"),
-    "light-load-swing": ("", "", "false", "false",
-                         "check a part without Rsat with its light-load headroom"),
-    "network": ("", "Ω", "designed (E24)", '{ rf = "47k", rg = "4k7" }',
-                "the stage's own resistors instead of the designed ones"),
-    "assume": ("", "", "none", '["rout=100"]',
-               "values to take where a part leaves a field blank (marked assumed)"),
-    "cload": (" F", "F", "0", '"1nF"', "capacitance at the output"),
-    "vcm": ("", "V", "ref", '"-5..5V"', "difference stage: input common-mode level or range"),
-    "cmrr": (" dB", "dB", "none", '"60dB"', "difference stage: least common-mode rejection"),
-    "phase-margin": (" deg", "degrees", "45", '"45deg"', "least phase margin of the loop"),
-    "ripple": ("", "amplitude@Hz", "none", '"50mVpp@100Hz"', "supply ripple on each rail"),
-    "f0": (" Hz", "Hz", "none: required for a filter", '"1kHz"',
-           "filter: corner (low-, high-pass) or centre (band-pass) frequency"),
-    "response": ("", "", "butterworth", '"butterworth"',
-                 "filter: butterworth, bessel or chebyshev"),
-    "passband-ripple": (" dB", "dB", "none", '"0.5dB"', "filter: chebyshev pass-band ripple"),
-    "bandwidth": (" Hz", "Hz", "none", '"200Hz"', "filter: -3 dB bandwidth of a band-pass"),
-    "cap-tolerance": ("", "ratio", "5%", '"5%"', "filter: capacitor tolerance"),
-    "cap-series": ("", "", "E12", '"E12"', "filter: capacitor series (E6, E12 or E24)"),
-    "response-error": ("", "ratio", "2%", '"2%"',
-                       "filter: how far the op-amp may move f0, Q and gain"),
-}
 
 #: The keys ``template()`` sets to an example stage (a stage needs them).
 EXAMPLE_STAGE: dict[str, str] = {"topology": '"inverting"', "gain": '"10"',
@@ -91,12 +35,11 @@ def template() -> str:
              "# command-line options override the values here. Values take units as on the",
              "# command line (20kHz, 4k7, 1%); a key left commented out takes its default.",
              ""]
-    for key in KEYS:
-        unit, words, default, example, meaning = FIELDS[key]
-        lines.append(f"# {key}: {meaning}" + (f" [{words}]" if words else "")
-                     + f"; default: {default}")
-        lines.append(f"{key} = {EXAMPLE_STAGE[key]}" if key in EXAMPLE_STAGE
-                     else f"# {key} = {example}")
+    for k in KEYS:
+        lines.append(f"# {k.name}: {k.text}" + (f" [{k.words}]" if k.words else "")
+                     + f"; default: {k.default}")
+        lines.append(f"{k.name} = {EXAMPLE_STAGE[k.name]}" if k.name in EXAMPLE_STAGE
+                     else f"# {k.name} = {k.example}")
     return "\n".join(lines) + "\n"
 
 
@@ -126,7 +69,7 @@ def _as_written(key: str, value: Any, where: str) -> Any:
     if where != "--" or isinstance(value, str | bool | int):
         return value
     if isinstance(value, float):
-        unit = FIELDS[key][0]
+        unit = BY_NAME[key].unit
         return f"{value!r}{unit}" if unit else value
     if key == "rails":
         pos, neg = value
@@ -142,7 +85,8 @@ def design_text(values: Mapping[str, tuple[Any, str]], *, origin: str = "") -> s
     head = ["# picker design file: a stage's requirement as given"
             + (f" ({origin})" if origin else ""),
             "# (`picker design new FILE` writes a template listing every key)", ""]
-    body = [f"{key} = {_toml(_as_written(key, *values[key]))}" for key in KEYS if key in values]
+    body = [f"{k.name} = {_toml(_as_written(k.name, *values[k.name]))}" for k in KEYS
+            if k.name in values]
     return "\n".join(head + body) + "\n"
 
 
@@ -161,4 +105,4 @@ def write_design(path: str | Path, text: str, protected: Sequence[Path], *,
         tmp.write_text(text, encoding="utf-8")
 
 
-__all__ = ["FIELDS", "design_text", "template", "write_design"]
+__all__ = ["design_text", "template", "write_design"]

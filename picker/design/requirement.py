@@ -32,8 +32,9 @@ from dataclasses import MISSING, dataclass, field, fields, replace
 from pathlib import Path
 from typing import Any, Literal, get_args
 
+from picker.design import keys as _keys
+from picker.design.keys import RESPONSES
 from picker.errors import BadRequirement, BadValue
-from picker.quantities import Brief, as_number, check_rails, parse, parse_amplitude, parse_rails
 from picker.stages import kind, kinds
 
 Topology = Literal["inverting", "non-inverting", "follower", "difference", "vcvs-lowpass",
@@ -45,98 +46,12 @@ ELV_DC_V = 60.0
 #: The temperature offset drift is specified from.
 T_REF_C = 25.0
 
-# requirement key (as written, dashes) -> dataclass field
-KEYS: dict[str, str] = {
-    "topology": "topology",
-    "gain": "gain",
-    "vin": "vin_pk",
-    "vout": "vout_pk",
-    "freq": "freq_hz",
-    "ref": "ref_v",
-    "load": "load_ohm",
-    "source": "source_ohm",
-    "rails": "rails",
-    "gain-error": "gain_error",
-    "tolerance": "tolerance",
-    "tolerance-rule": "tolerance_rule",
-    "phase-error": "phase_error_deg",
-    "offset-max": "offset_max_v",
-    "noise-max": "noise_max_v",
-    "temp": "temp",
-    "qty": "qty",
-    "margin": "margin",
-    "rf": "rf_ohm",
-    "rg": "rg_ohm",
-    "rin": "rg_ohm",
-    "zin": "zin_ohm",
-    "mains": "mains",
-    "light-load-swing": "light_load_swing",
-    "network": "network",
-    "assume": "assume",
-    "cload": "cload_f",
-    "vcm": "vcm",
-    "cmrr": "cmrr_min_db",
-    "phase-margin": "phase_margin_deg",
-    "ripple": "ripple",
-    "f0": "f0_hz",
-    "response": "response",
-    "passband-ripple": "passband_ripple_db",
-    "bandwidth": "bandwidth_hz",
-    "cap-tolerance": "cap_tolerance",
-    "cap-series": "cap_series",
-    "response-error": "response_error",
-}
+# requirement key (as written, dashes) -> dataclass field (picker.design.keys)
+KEYS: dict[str, str] = {k.name: k.field for k in _keys.KEYS}
 
 #: Keys that describe a filter section; other stages refuse them.
 FILTER_KEYS = ("f0", "response", "passband-ripple", "bandwidth")
-#: The response shapes of a low- or high-pass section (trade terms).
-RESPONSES = ("butterworth", "bessel", "chebyshev")
-
 Label = Callable[[str], str]
-
-#: Physical ranges a stage value must lie in (common practice for op-amp stages, no
-#: source): beyond them, derived quantities (loop gain, time steps, noise integrals)
-#: overflow or underflow a float, and no real stage is built there. key -> (low, high, unit)
-RANGES: dict[str, tuple[float, float, str]] = {
-    "gain": (1e-3, 1e6, "V/V (-60 dB to 120 dB)"),
-    "freq": (1e-3, 1e9, "Hz (1 mHz to 1 GHz)"),
-    "vin": (1e-9, 1e3, "V (1 nV to 1 kV)"),
-    "vout": (1e-9, 1e3, "V (1 nV to 1 kV)"),
-    "load": (1e-3, 1e12, "Ω (1 mΩ to 1 TΩ)"),
-    "source": (0.0, 1e12, "Ω (0 to 1 TΩ)"),
-    "rf": (1e-3, 1e12, "Ω (1 mΩ to 1 TΩ)"),
-    "rg": (1e-3, 1e12, "Ω (1 mΩ to 1 TΩ)"),
-    "rin": (1e-3, 1e12, "Ω (1 mΩ to 1 TΩ)"),
-    "zin": (1.0, 1e12, "Ω (1 Ω to 1 TΩ)"),
-    "network": (1e-3, 1e12, "Ω (1 mΩ to 1 TΩ; 0 where a short is allowed)"),
-    "network-c": (1e-15, 1.0, "F (1 fF to 1 F)"),
-    "gain-error": (1e-9, 1.0, "(1 ppb to 100%)"),
-    "offset-max": (1e-12, 1e3, "V (1 pV to 1 kV)"),
-    "noise-max": (1e-12, 1e3, "V (1 pV to 1 kV)"),
-    "temp": (-273.15, 500.0, "°C (-273.15 °C to 500 °C)"),
-    "qty": (1, 1e9, "channels (1 to 1,000,000,000)"),
-    "margin": (1.0, 100.0, "(1 to 100)"),
-    "cload": (0.0, 1e-3, "F (0 to 1 mF)"),
-    "cmrr": (0.0, 200.0, "dB (0 to 200 dB)"),
-    "phase-margin": (1.0, 89.0, "° (1° to 89°)"),
-    "ripple": (1e-9, 1e3, "V (1 nV to 1 kV)"),
-    "ripple-freq": (1e-3, 1e9, "Hz (1 mHz to 1 GHz)"),
-    "f0": (1e-3, 1e8, "Hz (1 mHz to 100 MHz)"),
-    "bandwidth": (1e-4, 1e8, "Hz (0.1 mHz to 100 MHz)"),
-    "passband-ripple": (0.001, 6.0, "dB (0.001 dB to 6 dB)"),
-    "cap-tolerance": (0.0, 0.2, "(0 to 20%)"),
-    "response-error": (1e-6, 0.5, "(1 ppm to 50%)"),
-}
-
-
-def _ranged(key: str, value: float, name: str, raw: Any, what: str = "") -> float:
-    """``value`` if it lies in RANGES[key], else BadValue naming the range."""
-    lo, hi, unit = RANGES[key]
-    if not lo <= value <= hi:
-        raise BadValue(name, Brief(raw), f"is outside {what or 'the range'} {lo:g} to {hi:g} "
-                       f"{unit}")
-    return value
-
 
 def option_label(key: str) -> str:
     """How a key is named on the command line: ``--gain-error``."""
@@ -451,139 +366,6 @@ def normal_key(key: str, where: str = "--") -> str:
     return k
 
 
-def _temp_range(text: Any, name: str) -> tuple[float, float]:
-    lo, hi = _temps(text, name)
-    return _ranged("temp", lo, name, text), _ranged("temp", hi, name, text)
-
-
-def _temps(text: Any, name: str) -> tuple[float, float]:
-    if isinstance(text, list | tuple):
-        if len(text) != 2:
-            raise BadValue(name, Brief(text), "needs two temperatures, low and high")
-        lo, hi = (parse(t, "temperature", name) for t in text)
-        return lo, hi
-    if isinstance(text, int | float) and not isinstance(text, bool):
-        v = parse(text, "temperature", name)
-        return v, v
-    if not isinstance(text, str):
-        raise BadValue(name, Brief(text), "is not a temperature or a range, e.g. -40..85C")
-    s = text
-    if ".." in s:
-        a, b = s.split("..", 1)
-        unit = "".join(ch for ch in b if not (ch.isdigit() or ch in "+-. "))
-        a = a if any(ch.isalpha() for ch in a) else a + unit
-        return parse(a, "temperature", name), parse(b, "temperature", name)
-    v = parse(s, "temperature", name)
-    return v, v
-
-
-def _vcm(value: Any, name: str) -> tuple[float, float]:
-    """A common-mode level (``2.5V``) or range (``-5..5V``, ``[-5, 5]``), V."""
-    if isinstance(value, list | tuple):
-        if len(value) != 2:
-            raise BadValue(name, Brief(value), "needs two levels, low and high, e.g. [-5, 5]")
-        lo, hi = (parse(v, "voltage", name) for v in value)
-    elif isinstance(value, str) and ".." in value:
-        a, b = value.split("..", 1)
-        unit = "".join(ch for ch in b if ch.isalpha())
-        a = a if any(ch.isalpha() for ch in a) else a + unit
-        lo, hi = parse(a, "voltage", name), parse(b, "voltage", name)
-    else:
-        lo = hi = parse(value, "voltage", name)
-    return lo, hi
-
-
-def _ripple(value: Any, name: str) -> tuple[float, float]:
-    """Rail ripple ``50mVpp@100Hz`` (or a TOML table {amplitude, freq}): (peak V, Hz)."""
-    if isinstance(value, Mapping):
-        amp, freq = value.get("amplitude"), value.get("freq")
-        if amp is None or freq is None:
-            raise BadValue(name, Brief(value), "needs amplitude and freq, e.g. "
-                           "{amplitude = '50mVpp', freq = '100Hz'}")
-    elif isinstance(value, str) and "@" in value:
-        amp, freq = (t.strip() for t in value.split("@", 1))
-    else:
-        raise BadValue(name, Brief(value), "is not amplitude@frequency, e.g. 50mVpp@100Hz")
-    v = _ranged("ripple", parse_amplitude(amp, name), name, value)
-    f = _ranged("ripple-freq", parse(freq, "frequency", name, allow_zero=False), name, value)
-    return v, f
-
-
-def _bool(value: Any, name: str) -> bool:
-    if isinstance(value, bool):
-        return value
-    s = str(value).strip().lower() if isinstance(value, str | int) else ""
-    if s in ("1", "true", "yes", "on"):
-        return True
-    if s in ("0", "false", "no", "off"):
-        return False
-    raise BadValue(name, Brief(value), "is not yes or no")
-
-
-def _optional(value: Any) -> bool:
-    return isinstance(value, str) and value.strip().lower() in ("none", "open", "")
-
-
-def _rms_stripped(value: Any) -> Any:
-    if isinstance(value, str) and value.strip().lower().endswith("rms"):
-        return value.strip()[:-3]
-    return value
-
-
-def _network(value: Any, name: str) -> dict[str, float]:
-    if not isinstance(value, Mapping):
-        raise BadValue(name, Brief(value),
-                       "is not a table of resistors, e.g. {rf = '47k', rg = '4k7'}")
-    out: dict[str, float] = {}
-    for k, v in value.items():
-        key = str(k).lower()
-        if isinstance(v, str) and v.strip().lower() in ("inf", "open"):
-            out[key] = math.inf
-        elif key.startswith("c"):  # a filter's capacitor (c1, c2)
-            out[key] = _ranged("network-c", parse(v, "capacitance", f"{name}.{key}",
-                                                  allow_zero=False), f"{name}.{key}", v)
-        else:
-            r = parse(v, "resistance", f"{name}.{key}")
-            out[key] = r if r == 0 else _ranged("network", r, f"{name}.{key}", v)
-    return out
-
-
-#: Part fields a requirement may assume (technical values, not stock or text).
-ASSUMABLE = ("gbw_hz", "slew_v_per_s", "aol_v_per_v", "rin_ohm", "rout_ohm", "iout_a",
-             "ib_a", "ios_a", "vos_v", "drift_v_per_c", "en_v_per_rthz", "in_a_per_rthz",
-             "out_head_pos_v", "out_head_neg_v", "cm_head_pos_v", "cm_head_neg_v",
-             "supply_min_v", "supply_max_v", "channels", "out_rsat_pos_ohm", "out_rsat_neg_ohm",
-             "pm_unity_deg", "min_noise_gain", "cin_diff_f", "cin_cm_f", "vdiff_max_v",
-             "cmrr_db", "psrr_db", "theta_ja_c_per_w", "tj_max_c")
-
-
-def _assume(value: Any, name: str) -> dict[str, float]:
-    """``rout=100,rin=1meg`` (or a TOML table, or a list of ``field=value``) -> SI values."""
-    from picker.store.records import convert, field_name
-
-    if isinstance(value, Mapping):
-        pairs = [(str(k), v) for k, v in value.items()]
-    else:
-        items = value if isinstance(value, list | tuple) else str(value).split(",")
-        pairs = []
-        for item in items:
-            key, eq, raw = str(item).partition("=")
-            if not eq or not key.strip() or not raw.strip():
-                raise BadValue(name, item, "is not field=value, e.g. --assume rout=100")
-            pairs.append((key.strip(), raw.strip()))
-    out: dict[str, float] = {}
-    for key, raw in pairs:
-        field_ = field_name(key, name)
-        if field_ not in ASSUMABLE:
-            raise BadValue(name, key, "cannot be assumed; assume a technical value such as "
-                           "rout, rin, gbw, iout or en")
-        v = convert(field_, raw, f"{name} {key}")
-        if not isinstance(v, int | float):
-            raise BadValue(name, raw, f"is not a value for {key}")
-        out[field_] = float(v)
-    return out
-
-
 # The legs that may be open (inf) or shorted (0) without leaving the stage undefined:
 # an open rg makes a non-inverting stage a follower; a shorted rf makes it (or a
 # follower) unity gain; a shorted rp is a plain wire. Any other open or shorted leg
@@ -619,119 +401,10 @@ def _build(values: Mapping[str, tuple[Any, str]]) -> Requirement:
 
     kw: dict[str, Any] = {}
     for key, (raw, _) in values.items():
-        name = lab(key)
-        if key == "topology":
-            t = raw.strip().lower().replace("_", "-") if isinstance(raw, str) else ""
-            t = {"noninverting": "non-inverting", "non-inv": "non-inverting",
-                 "inv": "inverting", "buffer": "follower", "diff": "difference"}.get(t, t)
-            if t not in kinds():
-                raise BadValue(name, Brief(raw),
-                               "is not a topology; use one of " + ", ".join(kinds()))
-            kw["topology"] = t
-        elif key == "gain":
-            kw["gain"] = _ranged(key, parse(raw, "gain", name, allow_zero=False), name, raw)
-        elif key in ("vin", "vout"):
-            kw[KEYS[key]] = _ranged(key, parse_amplitude(raw, name), name, raw)
-        elif key == "freq":
-            kw["freq_hz"] = _ranged(key, parse(raw, "frequency", name, allow_zero=False),
-                                    name, raw)
-        elif key == "ref":
-            kw["ref_v"] = None if _optional(raw) else parse(raw, "voltage", name)
-        elif key == "load":
-            kw["load_ohm"] = None if _optional(raw) else _ranged(
-                key, parse(raw, "resistance", name, allow_zero=False), name, raw)
-        elif key == "source":
-            kw["source_ohm"] = _ranged(key, parse(raw, "resistance", name), name, raw)
-        elif key == "rails":
-            if isinstance(raw, list | tuple):
-                if len(raw) != 2:
-                    raise BadValue(name, Brief(raw), "needs two rails, e.g. [12, -12]")
-                a, b = (parse(r, "voltage", name) for r in raw)
-                kw["rail_pos"], kw["rail_neg"] = check_rails(max(a, b), min(a, b), name,
-                                                             Brief(raw))
-            else:
-                kw["rail_pos"], kw["rail_neg"] = parse_rails(raw, name)
-        elif key == "gain-error":
-            kw["gain_error"] = _ranged(key, parse(raw, "ratio", name, allow_zero=False),
-                                       name, raw)
-        elif key == "tolerance":
-            kw["tolerance"] = parse(raw, "ratio", name)
-        elif key == "tolerance-rule":
-            rule = str(raw).strip().lower()
-            if rule not in ("worst", "rss"):
-                raise BadValue(name, raw, "is not a tolerance rule; use worst or rss")
-            kw["tolerance_rule"] = rule
-        elif key == "phase-error":
-            kw["phase_error_deg"] = None if _optional(raw) else parse(
-                raw, "angle", name, allow_negative=False, allow_zero=False)
-        elif key in ("offset-max", "noise-max"):
-            kw[KEYS[key]] = None if _optional(raw) else _ranged(key, parse(
-                _rms_stripped(raw), "voltage", name, allow_negative=False, allow_zero=False),
-                name, raw)
-        elif key == "temp":
-            kw["temp_min_c"], kw["temp_max_c"] = _temp_range(raw, name)
-        elif key == "qty":
-            kw["qty"] = int(_ranged(key, parse(raw, "count", name, allow_zero=False), name, raw))
-        elif key == "margin":
-            if isinstance(raw, bool) or not isinstance(raw, str | int | float):
-                raise BadValue(name, Brief(raw), "is not a number, e.g. 1.25")
-            kw["margin"] = as_number(str(raw), name)
-            if kw["margin"] > RANGES[key][1]:  # below 1 is explained by validate()
-                _ranged(key, kw["margin"], name, raw)
-        elif key == "rf":
-            kw["rf_ohm"] = _ranged(key, parse(raw, "resistance", name, allow_zero=False),
-                                   name, raw)
-            kw["rf_pinned"] = True
-        elif key in ("rg", "rin"):
-            if key == "rin" and "rg" in values:
-                raise BadRequirement(f"{name}: --rin and --rg name the same resistor of an "
-                                     "inverting stage; give one of them")
-            kw["rg_ohm"] = _ranged(key, parse(raw, "resistance", name, allow_zero=False),
-                                   name, raw)
-        elif key == "zin":
-            kw["zin_ohm"] = None if _optional(raw) else _ranged(
-                key, parse(raw, "resistance", name, allow_zero=False), name, raw)
-        elif key in ("mains", "light-load-swing"):
-            kw[KEYS[key]] = _bool(raw, name)
-        elif key == "network":
-            kw["network"] = _network(raw, name)
-        elif key == "assume":
-            kw["assume"] = _assume(raw, name)
-        elif key == "cload":
-            kw["cload_f"] = 0.0 if _optional(raw) else _ranged(
-                key, parse(raw, "capacitance", name), name, raw)
-        elif key == "vcm":
-            kw["vcm"] = None if _optional(raw) else _vcm(raw, name)
-        elif key == "cmrr":
-            kw["cmrr_min_db"] = None if _optional(raw) else _ranged(
-                key, parse(raw, "decibel", name, allow_negative=False), name, raw)
-        elif key == "phase-margin":
-            kw["phase_margin_deg"] = _ranged(key, parse(raw, "angle", name, allow_zero=False),
-                                             name, raw)
-        elif key == "ripple":
-            kw["ripple"] = None if _optional(raw) else _ripple(raw, name)
-        elif key in ("f0", "bandwidth"):
-            kw[KEYS[key]] = _ranged(key, parse(raw, "frequency", name, allow_zero=False),
-                                    name, raw)
-        elif key == "response":
-            r = raw.strip().lower() if isinstance(raw, str) else ""
-            if r not in RESPONSES:
-                raise BadValue(name, Brief(raw), "is not a response shape; use one of "
-                               + ", ".join(RESPONSES))
-            kw["response"] = r
-        elif key == "passband-ripple":
-            kw["passband_ripple_db"] = _ranged(key, parse(raw, "decibel", name,
-                                                          allow_negative=False), name, raw)
-        elif key in ("cap-tolerance", "response-error"):
-            kw[KEYS[key]] = _ranged(key, parse(raw, "ratio", name), name, raw)
-        elif key == "cap-series":
-            from picker.design.series import parse_series
-
-            cs = parse_series(raw if isinstance(raw, str) else str(raw), name)
-            if cs not in ("E3", "E6", "E12", "E24"):
-                raise BadValue(name, Brief(raw), "is not a capacitor series; use E6, E12 "
-                               "or E24 (capacitors are not made in E48 and finer)")
-            kw["cap_series"] = cs
+        if key == "rin" and "rg" in values:
+            raise BadRequirement(f"{lab(key)}: --rin and --rg name the same resistor of an "
+                                 "inverting stage; give one of them")
+        kw.update(_keys.BY_NAME[key].read(raw, lab(key)))
     if "rail_pos" not in kw:
         raise BadRequirement(f"{lab('rails')}: missing; give the supply rails, e.g. --rails ±12 "
                              "or --rails +5/0")
