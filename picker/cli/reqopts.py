@@ -87,6 +87,14 @@ _OPTIONS: tuple[tuple[str, str, Any, str], ...] = (
      "filter: capacitor series (default E12)"),
     ("response_error", "--response-error", QuantityParam("ratio", positive=True),
      "filter: how far the op-amp may move f0, Q and gain from the network's (default 2%)"),
+    # AC coupling (picker.design.coupling)
+    ("coupling", "--coupling", click.Choice(["dc", "ac"], case_sensitive=False),
+     "dc (default), or ac: an input coupling capacitor and a designed bias network "
+     "(inverting, non-inverting, follower)"),
+    ("fmin", "--fmin", QuantityParam("frequency", positive=True),
+     "with --coupling ac: the lowest signal frequency, e.g. 20Hz"),
+    ("low_corner", "--low-corner", QuantityParam("frequency", positive=True),
+     "with --coupling ac: the highest low-frequency -3 dB point allowed (default --fmin/10)"),
 )
 
 KEYS: tuple[str, ...] = tuple(name for name, *_ in _OPTIONS) + ("mains", "assume",

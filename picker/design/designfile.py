@@ -77,6 +77,12 @@ FIELDS: dict[str, tuple[str, str, str, str, str]] = {
     "cap-series": ("", "", "E12", '"E12"', "filter: capacitor series (E6, E12 or E24)"),
     "response-error": ("", "ratio", "2%", '"2%"',
                        "filter: how far the op-amp may move f0, Q and gain"),
+    "coupling": ("", "", "dc", '"ac"',
+                 "ac: input coupling capacitor and bias network (inverting, non-inverting)"),
+    "fmin": (" Hz", "Hz", "none: required with coupling ac", '"20Hz"',
+             "with coupling ac: the lowest signal frequency"),
+    "low-corner": (" Hz", "Hz", "fmin/10", '"2Hz"',
+                   "with coupling ac: the highest low-frequency -3 dB point allowed"),
 }
 
 #: The keys ``template()`` sets to an example stage (a stage needs them).
