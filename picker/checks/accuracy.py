@@ -269,7 +269,7 @@ def _offset_detail(s: Spec, p: Parts, i: int) -> str:
     text = (f"NG {s.stage.dc_noise_gain:.4g}, rf {fmt(s.stage.rf, 'resistance')}, zp "
             f"{fmt(s.stage.offset_zp, 'resistance')}"
             + (" (at DC: coupling capacitors open)" if s.stage.coupling is not None else "")
-            + ": at {worst:g} °C " + " + ".join(shown))
+            + f": at {worst:g} °C " + " + ".join(shown))
     if _warm(s):
         t2, assumed = (float(a[0]) for a in _doubling(one))
         if math.isnan(t2):

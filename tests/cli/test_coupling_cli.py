@@ -46,7 +46,7 @@ def test_net_pick_why_take_the_options(db: str) -> None:
     assert json.loads(run("net", *STAGE, "--json").output)["coupling"]["mode"] == "divider"
     assert run("pick", *INV, "--db", db).output
     why = run("why", "bip-gp-a", *STAGE, "--offset-max", "50mV", "--db", db).output
-    assert "AC coupling (designed):" in why and "(at DC: coupling capacitors open)" in why
+    assert "AC coupling (designed):" in why and "(at DC: coupling capacitors open): at 25 °C" in why
 
 
 def test_design_file_keys(tmp_path: Path) -> None:
