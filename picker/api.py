@@ -272,7 +272,14 @@ def design_network(req: Requirement, part: Mapping[str, Any] | None = None, *,
         raise BadRequirement(f"--check: analyses a network given in full; give {missing} "
                              "(or a design file's network), or drop --check to design it")
 
-    return design(req, part, series=series, zin_ohm=zin_ohm)
+    net = design(req, part, series=series, zin_ohm=zin_ohm)
+    if req.coupling == "ac":  # the coupling network around the designed resistors
+        from dataclasses import replace
+
+        from picker.stages import stage
+
+        net = replace(net, coupling=stage(req.with_changes(network=net.network)).coupling)
+    return net
 
 
 def part_frame(store: Any, part: str, columns: tuple[str, ...]) -> Any:

@@ -20,6 +20,13 @@ integrated over the closed loop's noise bandwidth π/2·f_cl (single pole, f_cl 
 closed-loop pole of the exact loop); k = 1.380649e-23 J/K (exact, SI 2019, CODATA),
 T the hottest ambient. The load and Ro add nothing worth counting.
 
+An AC-coupled stage (picker.design.coupling) reads its reduction as in the signal band
+(coupling capacitors short: zp = Rs‖Rb, the bias resistor to the decoupled bias node) for
+the noise, and as at DC (capacitors open: zp = Rb + the divider's Thévenin resistance,
+rg open behind its capacitor, so NG = 1) for the offset (``Stage.offset_zp``,
+``Stage.dc_noise_gain``). Below its corners the coupling network adds the stage's
+``lf_noise_v2`` (kT/C of each capacitor, picker.design.coupling) times NG² in power.
+
 rail ripple (``--ripple``, peak Vr at f_r): taken as an input-referred source through
 the part's DC power-supply rejection, so at the output ``Vr·10^(-PSRR/20)·NG`` (peak).
 It adds to the offset as a peak and to the noise as an RMS, ``peak/√2``, in power
@@ -129,7 +136,7 @@ def _ripple_needs(s: Spec) -> tuple[str, ...]:
 def _offset_coefs(s: Spec) -> dict[str, float]:
     """How much of each part value reaches the output offset in this stage (field -> V/unit)."""
     st, req = s.stage, s.requirement
-    ng, rf, zp = s.noise_gain, st.rf, st.zp
+    ng, rf, zp = st.dc_noise_gain, st.rf, st.offset_zp  # as at DC (coupling capacitors open)
     return {"vos_v": ng, "drift_v_per_c": ng * req.drift_span_c,
             "ib_a": abs(rf - zp * ng), "ios_a": (rf + zp * ng) / 2}
 
@@ -173,7 +180,7 @@ def _offset_ends(p: Parts, s: Spec) -> list[Array]:
     lower bound): NG·(Vos + drift·|T - 25 °C|), plus the Ib and Ios terms scaled to T.
     The sums over the parts are made once and combined per end."""
     terms = _offset_terms(p, s)
-    n, ng = len(p), s.noise_gain
+    n, ng = len(p), s.stage.dc_noise_gain
     vos = _sum_known([(ng, terms["vos_v"][1])], n)
     drift = _sum_known([(ng, terms["drift_v_per_c"][1])], n)
     bias = _sum_known([terms["ib_a"], terms["ios_a"]], n)
@@ -255,12 +262,14 @@ def _offset_detail(s: Spec, p: Parts, i: int) -> str:
         if c == 0:
             continue
         if key == "drift_v_per_c":
-            c = s.noise_gain * abs(worst - T_REF_C)
+            c = s.stage.dc_noise_gain * abs(worst - T_REF_C)
         if key in ("ib_a", "ios_a"):
             c = c * k
         shown.append(f"{key.split('_')[0]} {fmt(c * abs(float(x[0])), 'voltage')}")
-    text = (f"NG {s.noise_gain:.4g}, rf {fmt(s.stage.rf, 'resistance')}, zp "
-            f"{fmt(s.stage.zp, 'resistance')}: at {worst:g} °C " + " + ".join(shown))
+    text = (f"NG {s.stage.dc_noise_gain:.4g}, rf {fmt(s.stage.rf, 'resistance')}, zp "
+            f"{fmt(s.stage.offset_zp, 'resistance')}"
+            + (" (at DC: coupling capacitors open)" if s.stage.coupling is not None else "")
+            + f": at {worst:g} °C " + " + ".join(shown))
     if _warm(s):
         t2, assumed = (float(a[0]) for a in _doubling(one))
         if math.isnan(t2):
@@ -303,6 +312,7 @@ def _noise(p: Parts, s: Spec) -> CheckResult:
     total *= math.pi / 2  # the noise bandwidth of a single pole
     np.fmax(total, 0.0, out=total)  # unknown bandwidth (NaN) -> 0: a lower bound
     total *= density2
+    total += k["ng"] ** 2 * s.stage.lf_noise_v2  # the coupling network below its corners
     np.sqrt(total, out=total)
     if s.requirement.ripple is None:
         return result("noise", "voltage", "<=", s.requirement.noise_max_v / s.margin, total)
@@ -331,7 +341,10 @@ def _noise_detail(s: Spec, p: Parts, i: int) -> str:
     f_cl = float(pole(one, s.stage)[0])
     en, cur = float(one["en_v_per_rthz"][0]), float(one["in_a_per_rthz"][0])
     return (f"en·NG {fmt(k['ng'] * en, 'vnoise')}, in {fmt(math.sqrt(k['i_gain2']) * cur, 'vnoise')}"
-            f", resistors {fmt(math.sqrt(k['r_density2']), 'vnoise')}; closed-loop pole "
+            f", resistors {fmt(math.sqrt(k['r_density2']), 'vnoise')}"
+            + (f", coupling network below its corners {fmt(k['ng'] * math.sqrt(s.stage.lf_noise_v2), 'voltage')} RMS"
+               if s.stage.lf_noise_v2 > 0 else "")
+            + f"; closed-loop pole "
             f"{fmt(f_cl, 'frequency')}, noise bandwidth {fmt(math.pi / 2 * f_cl, 'frequency')}"
             + _ripple_detail(s, one, rms=True))
 

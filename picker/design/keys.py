@@ -61,6 +61,8 @@ RANGES: dict[str, tuple[float, float, str]] = {
     "passband-ripple": (0.001, 6.0, "dB (0.001 dB to 6 dB)"),
     "cap-tolerance": (0.0, 0.2, "(0 to 20%)"),
     "response-error": (1e-6, 0.5, "(1 ppm to 50%)"),
+    "fmin": (1e-3, 1e9, "Hz (1 mHz to 1 GHz)"),
+    "low-corner": (1e-4, 1e9, "Hz (0.1 mHz to 1 GHz)"),
 }
 
 #: The response shapes of a low- or high-pass section (trade terms).
@@ -448,6 +450,18 @@ KEYS: tuple[Key, ...] = (
                                                       "ratio"),
         "filter: how far the op-amp may move f0, Q and gain from the network's", "2%", '"2%"',
         kind="ratio", positive=True, words="ratio"),
+    # AC coupling (picker.design.coupling)
+    Key("coupling", "coupling", _choice("coupling", ("dc", "ac"), "a coupling"),
+        "ac: an input coupling capacitor and a designed bias network (inverting, "
+        "non-inverting, follower)", "dc", '"ac"', kind="choice", choices=("dc", "ac")),
+    Key("fmin", "fmin_hz", _quantity("fmin", "fmin_hz", "frequency", positive=True),
+        "with coupling ac: the lowest signal frequency, e.g. 20Hz",
+        "none: required with coupling ac", '"20Hz"', kind="frequency", positive=True,
+        unit=" Hz", words="Hz"),
+    Key("low-corner", "low_corner_hz", _quantity("low-corner", "low_corner_hz", "frequency",
+                                                 positive=True),
+        "with coupling ac: the highest low-frequency -3 dB point allowed", "fmin/10", '"2Hz"',
+        kind="frequency", positive=True, unit=" Hz", words="Hz"),
 )
 
 #: key name -> Key

@@ -76,6 +76,7 @@ class Network:
     network_current_a: float = 0.0  # drawn from the output at the peak
     power_w: Mapping[str, float] = field(default_factory=dict, hash=False)  # at the peak
     given: tuple[str, ...] = ()  # positions kept exactly as given (not designed)
+    coupling: Any = None  # the AC-coupling design around it (picker.design.coupling)
 
     @property
     def gain_error(self) -> float:
@@ -111,6 +112,8 @@ class Network:
                     for s in self.slots if s.how != "single"}
         if combined:
             out["combined"] = combined
+        if self.coupling is not None:
+            out["coupling"] = self.coupling.to_json()
         return out
 
 

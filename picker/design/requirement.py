@@ -119,6 +119,12 @@ class Requirement:
     cap_tolerance: float = 0.05  # of the filter's capacitors (C0G/NP0 film and ceramic 5%)
     cap_series: str = "E12"  # the IEC 60063 series capacitors are chosen from
     response_error: float = 0.02  # how far the op-amp may move f0, Q and gain (ratio)
+    # AC coupling (picker.design.coupling): "dc", or "ac" with a coupling capacitor at the
+    # input and a bias network; the lowest signal frequency, Hz; the highest overall
+    # low-frequency -3 dB point allowed, Hz (None: fmin/10)
+    coupling: Literal["dc", "ac"] = "dc"
+    fmin_hz: float | None = None
+    low_corner_hz: float | None = None
 
     @property
     def is_filter(self) -> bool:
@@ -249,10 +255,12 @@ class Requirement:
                                  "alone gives its bias-balancing feedback resistor)")
         if self.rg_ohm is not None and not (self.rg_ohm > 0 and math.isfinite(self.rg_ohm)):
             raise BadRequirement(f"{label('rg')}: the gain leg must be above 0 Ω")
-        if self.zin_ohm is not None and t not in ("inverting", "difference"):
+        if self.zin_ohm is not None and t not in ("inverting", "difference") and not (
+                self.coupling == "ac" and t in ("non-inverting", "follower")):
             raise BadRequirement(f"{label('zin')}: a {t} stage's input impedance is the "
                                  "op-amp's own, not set by resistors; use --zin with inverting "
-                                 "or difference")
+                                 "or difference (or an AC-coupled non-inverting stage or "
+                                 "follower: its bias resistor)")
         for name, v in (("offset-max", self.offset_max_v), ("noise-max", self.noise_max_v)):
             if v is not None and not v > 0:
                 raise BadRequirement(f"{label(name)}: the limit must be above 0 V")
@@ -277,6 +285,7 @@ class Requirement:
                 raise BadRequirement(f"{label('vcm')}: {lo:g}..{hi:g} V is not a common-mode "
                                      "level a stage on these rails sees; check the units")
         self._validate_filter(label)
+        self._validate_coupling(label)
         if not (self.cload_f >= 0 and math.isfinite(self.cload_f)):
             raise BadRequirement(f"{label('cload')}: the load capacitance must be >= 0 F")
         if not (0 < self.phase_margin_deg < 90):
@@ -296,6 +305,39 @@ class Requirement:
             if missing:
                 raise BadRequirement(f"{label('network')}: the {t} stage needs "
                                      f"{', '.join(missing)} as well")
+
+    def _validate_coupling(self, label: Label) -> None:
+        """The AC-coupling keys: fmin (and low-corner) only with coupling ac, below freq."""
+        from picker.design.coupling import COUPLED_TOPOLOGIES
+
+        t = self.topology
+        if self.coupling not in ("dc", "ac"):
+            raise BadRequirement(f"{label('coupling')}: {self.coupling!r} is not a coupling; "
+                                 "use dc or ac")
+        if self.coupling == "dc":
+            for name, v in (("fmin", self.fmin_hz), ("low-corner", self.low_corner_hz)):
+                if v is not None:
+                    raise BadRequirement(f"{label(name)}: applies to an AC-coupled stage only; "
+                                         "add --coupling ac, or omit it")
+            return
+        if t not in COUPLED_TOPOLOGIES:
+            raise BadRequirement(f"{label('coupling')}: ac applies to the "
+                                 f"{', '.join(COUPLED_TOPOLOGIES)} stages, not {t}; use "
+                                 "--coupling dc")
+        if self.fmin_hz is None:
+            raise BadRequirement(f"{label('fmin')}: missing; an AC-coupled stage needs its "
+                                 "lowest signal frequency, e.g. --fmin 20Hz")
+        if not (0 < self.fmin_hz < self.freq_hz):
+            raise BadRequirement(f"{label('fmin')}: {self.fmin_hz:g} Hz is not below the top "
+                                 f"frequency --freq {self.freq_hz:g} Hz; give the lowest "
+                                 "signal frequency, below --freq")
+        if self.low_corner_hz is not None and not 0 < self.low_corner_hz < self.fmin_hz:
+            raise BadRequirement(f"{label('low-corner')}: {self.low_corner_hz:g} Hz is not "
+                                 f"below --fmin {self.fmin_hz:g} Hz; the low-frequency -3 dB "
+                                 "point must lie below the band, e.g. fmin/10")
+        if self.network is not None and self.network.get("rp", 0.0) != 0.0:
+            raise BadRequirement(f"{label('network')}: rp has no place in an AC-coupled stage "
+                                 "(the bias network drives the non-inverting input); omit it")
 
     def _validate_filter(self, label: Label) -> None:
         """The filter keys: given only for a filter, complete and consistent for one."""

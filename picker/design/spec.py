@@ -127,14 +127,18 @@ class Spec:
         return self.requirement.cautions
 
     def to_json(self) -> dict[str, Any]:
-        """The JSON shape of ``picker spec --json`` (SI base units)."""
-        return {
+        """The JSON shape of ``picker spec --json`` (SI base units); an AC-coupled stage
+        adds ``coupling`` (picker.design.coupling.Coupling.to_json)."""
+        out = {
             "signal_gain": self.signal_gain,
             "noise_gain": self.noise_gain,
             "margin": self.margin,
             "min": asdict(self.minimum),
             "budget": asdict(self.budget),
         }
+        if self.stage.coupling is not None:
+            out["coupling"] = self.stage.coupling.to_json()
+        return out
 
 
 def ng_eff(st: Stage, rin: float) -> float:

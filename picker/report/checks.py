@@ -10,6 +10,7 @@ import math
 from typing import TYPE_CHECKING
 
 from picker.quantities import Kind, fmt
+from picker.report.coupling import coupling_lines
 
 if TYPE_CHECKING:
     from collections.abc import Sequence
@@ -102,6 +103,8 @@ def spec_text(spec: Spec, explain: bool = False) -> str:
     lines = [f"Stage: {stage_line(req)}", *cautions_block(spec.cautions), ""]
     lines.append(f"signal gain {_g(spec.signal_gain, 6)} V/V, noise gain "
                  f"{_g(spec.noise_gain, 6)} V/V")
+    if spec.stage.coupling is not None:
+        lines += [*coupling_lines(spec.stage.coupling), ""]
     if explain:
         for e in spec.explain:
             lines += ["", f"{e.title} [{e.name}]: {_value(e.value, e.kind)}",
@@ -258,6 +261,8 @@ def why_text(spec: Spec, table: CheckTable, parts: Parts, i: int = 0,
     label = str(table.labels[i])
     lines = [f"Part: {label}", f"Stage: {stage_line(spec.requirement)}",
              *cautions_block(spec.cautions), ""]
+    if spec.stage.coupling is not None:
+        lines += [*coupling_lines(spec.stage.coupling), ""]
     for check in applicable(spec):
         r = table.results[check.name]
         need = check.explain(spec)[0]

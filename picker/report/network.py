@@ -5,6 +5,7 @@ from __future__ import annotations
 from picker.design.network import Network
 from picker.design.tolerance import MC_SAMPLES, MC_SEED
 from picker.quantities import fmt
+from picker.report.coupling import coupling_lines
 
 _ROLE = {
     "inverting": {"rf": "feedback, output to inverting input",
@@ -51,7 +52,9 @@ def render(net: Network, *, part: str | None = None,
         lines.append(f"  {position_line(net, slot.name)}" + (f"   {role}" if role else ""))
     if not net.slots:
         lines.append("  (no resistors)")
-    if net.input_ohm is not None:
+    if net.coupling is not None:  # its input impedance is the coupling network's
+        lines += coupling_lines(net.coupling)
+    elif net.input_ohm is not None:
         lines.append(f"input impedance {fmt(net.input_ohm, 'resistance')}"
                      + ("" if net.source_share is None else
                         f"; the source is {net.source_share:.2%} of the input leg (its own "

@@ -107,6 +107,17 @@ class Stage:
     ideal_network: bool
     netlist: Netlist | None = None  # the stage's own circuit; None: the reduced one
     cload: float = 0.0  # capacitive load at the output, F (in the netlist)
+    # At DC, when coupling capacitors make it differ from the circuit above (the signal
+    # band): the resistance behind the non-inverting input and the gain leg (inf: a
+    # capacitor blocks it); None: as in the band. The offset reads these.
+    dc_zp: float | None = None
+    dc_rg: float | None = None
+    # noise power the coupling network adds below its corners, referred to the
+    # non-inverting input, V² (counted times NG², an upper bound: the gain there is
+    # at most NG); 0: none
+    lf_noise_v2: float = 0.0
+    # the AC-coupling design (picker.design.coupling.Coupling); None: DC-coupled
+    coupling: Any = None
 
     def allows(self, check: str) -> bool:
         """Whether the check named ``check`` holds for this stage (a filter stage narrows
@@ -134,6 +145,17 @@ class Stage:
     def noise_gain(self) -> float:
         """DC noise gain 1 + rf/rg: the gain from the op-amp's input to its output."""
         return 1.0 if math.isinf(self.rg) else 1.0 + self.rf / self.rg
+
+    @property
+    def offset_zp(self) -> float:
+        """The resistance behind the non-inverting input at DC, Ω (the bias current's)."""
+        return self.zp if self.dc_zp is None else self.dc_zp
+
+    @property
+    def dc_noise_gain(self) -> float:
+        """The noise gain at DC, 1 + rf/rg with rg as at DC (what Vos is multiplied by)."""
+        rg = self.rg if self.dc_rg is None else self.dc_rg
+        return 1.0 if math.isinf(rg) else 1.0 + self.rf / rg
 
     @property
     def ideal_gain(self) -> float:
@@ -182,6 +204,11 @@ class StageType(ABC):
         res = (self.ideal_network(req.gain, req.source_ohm, req.rf_ohm) if ideal
                else dict(req.network or {}))
         load = math.inf if req.load_ohm is None else req.load_ohm
+        if req.coupling == "ac":
+            # here, not at the top: picker.design imports picker.stages (an import cycle)
+            from picker.design.coupling import coupled_stage
+
+            return coupled_stage(self, req, res, ideal, load)
         kp, zp, kg, rg, rf = self.reduce(res, req.source_ohm)
         return Stage(self.name, res, kp, zp, kg, rg, rf, load, req.gain, ideal,
                      with_cload(self.netlist(res, req.source_ohm, load), req.cload_f),

@@ -193,6 +193,9 @@ def test_template_lists_every_key_and_reads_as_a_stage(tmp_path: Path) -> None:
                 stage["response"] = "chebyshev"
         if key == "vout":
             del stage["vin"]
+        if key in ("coupling", "fmin", "low-corner"):  # the AC-coupling keys go together
+            stage["coupling"] = "ac"
+            stage.setdefault("fmin", "20Hz")
         if key == "network":
             stage["network"] = {"rf": "47k", "rg": "4k7"}
         if key == "rin":
