@@ -77,8 +77,8 @@ def _detail(s: Spec, p: Parts, i: int) -> str:
 FILTER_STABILITY = Check(
     name="filter_stability", kind="angle", reads=tuple(r for r in READS if r != "min_noise_gain"),
     run=_run, needs=_needs,
-    formula="PM = 180° + arg T(j2πfc) >= phase margin, |T(j2πfc)| = 1, T = A·β, "
-            "A(s) = A0/((1 + s/ωp1)(1 + s/ωp2)), β(s) = d1/d0 of the nodal solution of the "
+    formula="the filter's loop: 180° + arg T(j2πfc) >= phase margin at |T(j2πfc)| = 1, "
+            "T = A·β, A(s) = A0/((1 + s/ωp1)(1 + s/ωp2)), β(s) = d1/d0 of the nodal solution of the "
             "filter with its capacitors (source, Ro with the load capacitance, input "
             "capacitances)",
     explain=_explain, detail=_detail, applies=_is_filter, amplitude="independent")

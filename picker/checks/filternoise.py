@@ -225,9 +225,9 @@ FILTER_NOISE = Check(
     reads=("en_v_per_rthz", "in_a_per_rthz", "aol_v_per_v", "gbw_hz", "pm_unity_deg",
            "rin_ohm", "rout_ohm", "cin_diff_f", "cin_cm_f"),
     run=_run, needs=_needs,
-    formula="√(∫0^∞ (en²·|H_en|² + in²·(|Z_p|² + |Z_n|²) + Σ 4kT·R·|H_R|²) df) <= noise max/m, "
-            "each H the exact transfer from that source to the output (filter with its "
-            "capacitors, two-pole part model)",
+    formula="√(∫ (en²·|H_en|² + in²·(|Z_p|² + |Z_n|²) + Σ 4kT·R·|H_R|²) df) <= noise max/m, "
+            "from DC to 10·GBW (closed by the loop's f⁻² tail), each H the exact transfer "
+            "from that source to the output (filter with its capacitors, two-pole part model)",
     explain=_explain, detail=_detail, applies=_is_noise_filter, amplitude="independent")
 
 
