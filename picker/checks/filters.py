@@ -12,8 +12,11 @@ and output-current checks, which assume a frequency-independent network.
 - filter_current: Iout >= m·Vp,in·max|I_out(f)| (load plus network) up to --freq;
 - filter_min_gain: a decompensated part (stable only above a noise gain) must see at
   least that noise gain where its loop crosses unity, far above fn. The single-pole
-  model of filter_response cannot see this; a full phase-margin check of the section is
-  not made here (left for the stability checks).
+  model of filter_response cannot see this;
+- filter_stability (picker.checks.filterloop): the phase margin of the filter's loop with
+  the two-pole part model, β(s) of the network with its capacitors;
+- filter_noise (picker.checks.filternoise): the output noise, every source through its own
+  transfer function, integrated over frequency.
 """
 
 from __future__ import annotations
@@ -24,6 +27,8 @@ import numpy as np
 
 from picker.checks import Check
 from picker.checks.core import Array, CheckResult, Parts, result
+from picker.checks.filterloop import FILTER_STABILITY
+from picker.checks.filternoise import FILTER_NOISE
 from picker.circuit.nullor import transfer
 from picker.circuit.opamp import loop
 from picker.design.filterspec import RULE_FACTOR, gbw_rule, rule_gain
@@ -252,8 +257,8 @@ FILTER_MIN_GAIN = Check(
     amplitude="independent")
 
 
-CHECKS: tuple[Check, ...] = (FILTER_GBW, FILTER_RESPONSE, FILTER_SLEW, FILTER_CURRENT,
-                             FILTER_MIN_GAIN)
+CHECKS: tuple[Check, ...] = (FILTER_GBW, FILTER_RESPONSE, FILTER_STABILITY, FILTER_SLEW,
+                             FILTER_CURRENT, FILTER_MIN_GAIN, FILTER_NOISE)
 
 __all__ = ["CHECKS", "FILTER_CURRENT", "FILTER_GBW", "FILTER_MIN_GAIN", "FILTER_RESPONSE", "FILTER_SLEW",
            "part_sections", "phase_deg"]

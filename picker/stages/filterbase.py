@@ -16,9 +16,13 @@ nullor (picker.circuit.nullor) on a log grid of 40 points a decade plus the sect
 - ``amps_peak``: max |I_out(f)| (load plus network, per volt of input);
 - ``cm_peak``: max |v_p(f)| (the inputs' excursion per volt of input).
 
+The netlist carries the load capacitance (``--cload``) at the output, so the band scan,
+the response and the loop see it.
+
 Only the checks that hold for a reactive stage apply to it (``FILTER_CHECKS``): the
-resistive-stage gain, phase, noise and slew checks are replaced by the filter checks of
-picker.checks.filters; a check added later applies only once it is listed here.
+resistive-stage gain, phase, stability, noise, slew and output-current checks are
+replaced by the filter checks of picker.checks.filters (``REPLACED``); a check added
+later applies only once it is listed here.
 """
 
 from __future__ import annotations
@@ -35,7 +39,7 @@ import numpy.typing as npt
 from picker.circuit.mna import Netlist
 from picker.circuit.nullor import node_voltages, output_current
 from picker.errors import BadRequirement
-from picker.stages.base import Array, Stage, StageType
+from picker.stages.base import Array, Stage, StageType, with_cload
 from picker.stages.sections import Kind, Section, section
 
 if TYPE_CHECKING:
@@ -45,10 +49,12 @@ if TYPE_CHECKING:
 FILTER_CHECKS: frozenset[str] = frozenset({
     "swing", "common_mode", "supply", "offset", "stock",
     "filter_gbw", "filter_response", "filter_slew", "filter_current", "filter_min_gain",
+    "filter_stability", "filter_noise",
 })
 #: Resistive-stage checks and the filter checks that take their place.
 REPLACED: dict[str, str] = {"slew": "filter_slew", "gain_accuracy": "filter_response",
-                            "phase": "filter_response", "output_current": "filter_current"}
+                            "phase": "filter_response", "output_current": "filter_current",
+                            "stability": "filter_stability", "noise": "filter_noise"}
 #: Resistance level the design aims at, Ω: 1 kΩ .. 100 kΩ keeps the op-amp's output
 #: load light and bias-current offset and resistor noise low (common practice, no source).
 R_TARGET_OHM = 10e3
@@ -133,7 +139,7 @@ class FilterType(StageType):
                 "buffer the source")
         load = math.inf if req.load_ohm is None else req.load_ohm
         kp, zp, kg, rg, rf = self.reduce(values, req.source_ohm)
-        net = self.netlist(values, req.source_ohm, load)
+        net = with_cload(self.netlist(values, req.source_ohm, load), req.cload_f)
         k, wn, q = (float(np.asarray(x)) for x in self.biquad(req.source_ohm, values))
         own = Section(self.kind, wn / (2 * math.pi), q, k)
         top = req.freq_hz
@@ -144,7 +150,7 @@ class FilterType(StageType):
         assert amp is not None
         i_out = np.abs(output_current(net, f))
         return FilterStage(
-            self.name, values, kp, zp, kg, rg, rf, load, req.gain, ideal, net,
+            self.name, values, kp, zp, kg, rg, rf, load, req.gain, ideal, net, req.cload_f,
             kind=self.kind, target=sec, top_hz=top, peak_gain=float(h.max()),
             slew_per_volt=float(np.max(2 * np.pi * f * h)), amps_peak=float(i_out.max()),
             cm_peak=float(np.abs(v[amp.p]).max()), inverting=self.inverting, ideal=own)
