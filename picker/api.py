@@ -70,6 +70,10 @@ def built(req: Requirement, series: SeriesName = DEFAULT_SERIES) -> Requirement:
         from picker.design.filternet import with_filter_network
 
         return with_filter_network(req, series)
+    if req.is_tia:  # rf from the series, cf from --cap-series (picker.design.tianet)
+        from picker.design.tianet import with_tia_network
+
+        return with_tia_network(req, series)
     return with_designed_network(req, series=series)
 
 
@@ -264,6 +268,10 @@ def design_network(req: Requirement, part: Mapping[str, Any] | None = None, *,
         from picker.design.filternet import design_filter
 
         return design_filter(req, series)
+    if req.is_tia:  # picker.design.tianet.TiaNetwork
+        from picker.design.tianet import design_tia
+
+        return design_tia(req, series)
     full = req.network is not None or (req.rf_pinned and req.rg_ohm is not None) or (
         req.topology == "follower" and req.rf_pinned)
     if check and not full and kind(req.topology).pair_names is not None:

@@ -19,7 +19,8 @@ from picker.cli.params import QuantityParam, RailsParam
 F = TypeVar("F", bound=Callable[..., Any])
 
 TOPOLOGY_CHOICE = click.Choice(["inverting", "non-inverting", "follower", "difference",
-                                "vcvs-lowpass", "vcvs-highpass", "mfb-lowpass", "mfb-bandpass"])
+                                "vcvs-lowpass", "vcvs-highpass", "mfb-lowpass", "mfb-bandpass",
+                                "transimpedance"])
 
 # (parameter name, option, click type, help); requirement keys are the option names
 _OPTIONS: tuple[tuple[str, str, Any, str], ...] = (
@@ -87,6 +88,24 @@ _OPTIONS: tuple[tuple[str, str, Any, str], ...] = (
      "filter: capacitor series (default E12)"),
     ("response_error", "--response-error", QuantityParam("ratio", positive=True),
      "filter: how far the op-amp may move f0, Q and gain from the network's (default 2%)"),
+    # the transimpedance stage
+    ("iin", "--iin", str,
+     "transimpedance: sensor current, its peak (10uA) or a DC range (0..10uA); positive "
+     "flows into the inverting input"),
+    ("iin_min", "--iin-min", QuantityParam("current", positive=True),
+     "transimpedance: smallest signal current to resolve (default: the peak)"),
+    ("cdet", "--cdet", QuantityParam("capacitance"),
+     "transimpedance: the sensor's own capacitance, e.g. 10pF (default 0)"),
+    ("rshunt", "--rshunt", QuantityParam("resistance", positive=True),
+     "transimpedance: the sensor's shunt resistance (default: open)"),
+    ("zt", "--zt", QuantityParam("resistance", positive=True),
+     "transimpedance: V/A wanted, e.g. 100k (or the output swing --vout)"),
+    ("f3db", "--f3db", QuantityParam("frequency", positive=True),
+     "transimpedance: -3 dB bandwidth wanted, e.g. 100kHz"),
+    ("rise", "--rise", QuantityParam("time", positive=True),
+     "transimpedance: 10-90% rise time wanted instead of --f3db (bandwidth 0.35/rise)"),
+    ("tia_response", "--tia-response", click.Choice(["butterworth", "bessel", "critical"]),
+     "transimpedance: response the feedback capacitor is designed for (default butterworth)"),
 )
 
 KEYS: tuple[str, ...] = tuple(name for name, *_ in _OPTIONS) + ("mains", "assume",

@@ -77,6 +77,20 @@ FIELDS: dict[str, tuple[str, str, str, str, str]] = {
     "cap-series": ("", "", "E12", '"E12"', "filter: capacitor series (E6, E12 or E24)"),
     "response-error": ("", "ratio", "2%", '"2%"',
                        "filter: how far the op-amp may move f0, Q and gain"),
+    "iin": (" A", "A, peak or low..high", "none: required for transimpedance", '"10uA"',
+            "transimpedance: sensor current, peak or DC range (e.g. 0..10uA)"),
+    "iin-min": (" A", "A", "the peak", '"100nA"',
+                "transimpedance: smallest signal current to resolve"),
+    "cdet": (" F", "F", "0", '"10pF"', "transimpedance: the sensor's own capacitance"),
+    "rshunt": (" Ω", "Ω", "open", '"1G"', "transimpedance: the sensor's shunt resistance"),
+    "zt": (" Ω", "Ω", "none: zt or vout", '"100k"', "transimpedance: V/A wanted"),
+    "f3db": (" Hz", "Hz", "none: f3db or rise", '"100kHz"',
+             "transimpedance: -3 dB bandwidth wanted"),
+    "rise": (" s", "s", "none: f3db or rise", '"3.5us"',
+             "transimpedance: 10-90% rise time wanted (bandwidth 0.35/rise)"),
+    "tia-response": ("", "", "butterworth", '"butterworth"',
+                     "transimpedance: response cf is designed for (butterworth, bessel, "
+                     "critical)"),
 }
 
 #: The keys ``template()`` sets to an example stage (a stage needs them).
