@@ -378,7 +378,8 @@ def response(req: Requirement, store: Any, part: str, freq_hz: float | None = No
     -------
     picker.design.response.Response, or picker.design.filterresp.FilterResponse
         One row; ``summary(0)`` is ``picker bode PART --json`` (Hz, dB, degrees; a filter
-        adds the section the part makes, f0, Q and pass-band gain, and its -3 dB edges).
+        adds the section the part makes, f0, Q and pass-band gain, and its -3 dB edges;
+        a transimpedance stage's gains are the transimpedance in dB re 1 Ω).
     """
     from picker.design.response import COLUMNS
     from picker.design.response import response as resp
@@ -389,8 +390,16 @@ def response(req: Requirement, store: Any, part: str, freq_hz: float | None = No
         fr = filter_resp(built(req), part_frame(store, part, COLUMNS), freq_hz)
         _need_known(bool(fr.known[0]), part, "gain-bandwidth product")
         return fr
-    out = resp(built(req), part_frame(store, part, COLUMNS), freq_hz)
+    b = built(req)
+    out = resp(b, part_frame(store, part, COLUMNS), freq_hz)
     _need_known(bool(out.known[0]), part, "gain-bandwidth product")
+    if b.is_tia:  # per volt of the Norton source -> transimpedance, dB re 1 Ω
+        import dataclasses
+
+        shift = 20 * math.log10(b.norton_ohm)
+        out = dataclasses.replace(out, gain_db=out.gain_db + shift,
+                                  dc_gain_db=out.dc_gain_db + shift,
+                                  gain_at_f=out.gain_at_f + shift)
     return out
 
 
