@@ -19,8 +19,11 @@ import pandas as pd
 from numpy.testing import assert_allclose
 
 from picker import api
+from picker.checks import run_checks
 from picker.checks.core import Parts
+from picker.checks.stability import model
 from picker.checks.tia import output_noise, part_bandwidth
+from picker.circuit.loopgain import closed_loop
 from picker.design.spec import minimum_specs
 from picker.stages.transimpedance import TiaStage
 from tests.design.spice_raw import run_deck
@@ -77,15 +80,19 @@ def test_ac_transimpedance_and_bandwidth_within_1_percent(tmp_path: Path) -> Non
     f3_spice = float(np.interp(-g[0] / math.sqrt(2), -g, f))
     parts = Parts(pd.DataFrame([PART], index=pd.Index(["ref-part"], name="label")))
     f3 = float(part_bandwidth(parts, s)[0])
-    from picker.circuit.loopgain import closed_loop
-    from picker.checks.stability import model
-
     zt = abs(complex(closed_loop(st.circuit, model(parts), np.zeros(1))[0])) * st.rn
     # ngspice .ac, 400 points a decade, linear interpolation at -3 dB
     assert_allclose(zt, zt_spice, rtol=1e-3)
     assert_allclose(f3, f3_spice, rtol=0.01)
-    print(f"zt {zt:.6g} {zt_spice:.6g} f3 {f3:.6g} {f3_spice:.6g}")
     assert f3 >= st.band_hz  # the design reaches the bandwidth with this part
+    # boundary: the same network and part, the bandwidth asked 2% either side of what
+    # ngspice measures for them
+    net = {"rf": st.rf, "cf": st.cf}
+    for factor, want in ((1 / 1.02, "pass"), (1.02, "fail")):
+        sb = minimum_specs(api.built(api.requirement(
+            **{**STAGE, "f3db": f"{f3_spice * factor!r}Hz"}).with_changes(network=net)))
+        got = run_checks(parts, sb).results["tia_bandwidth"].status(0)
+        assert got == want, (factor, got)
 
 
 def test_noise_integral_against_ngspice_noise(tmp_path: Path) -> None:
@@ -102,6 +109,5 @@ def test_noise_integral_against_ngspice_noise(tmp_path: Path) -> None:
     mine = float(output_noise(s, np.array([en]), np.array([0.0]), np.array([PART["gbw_hz"]]),
                               np.array([PART["aol_v_per_v"]]), np.array([ct]))[0])
     # ngspice's .noise with the same band (it starts at f_lo; picker adds the flat
-    # 0..f_lo strip, 1e-4 of the band: below the tolerance)
-    assert_allclose(mine, spice, rtol=0.02)
-    print(f"noise picker {mine:.6e} ngspice {spice:.6e}")
+    # 0..f_lo strip, 1e-4 of the band: below the tolerance); measured 7e-5 apart
+    assert_allclose(mine, spice, rtol=0.005)
