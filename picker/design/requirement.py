@@ -376,10 +376,12 @@ class Requirement:
             out_name = label("iin")
         low, high = self.output_levels()
         if high > self.rail_pos or low < self.rail_neg:
+            shown = (f"{low:g} .. {high:g} V (ref - I·Zt)" if self.is_tia
+                     else f"{self.vout:g} Vpk around {ref:g} V")
             raise BadRequirement(
-                f"{out_name}: an output of {low:g} .. {high:g} V ({self.vout:g} Vpk around "
-                f"{ref:g} V) goes beyond the rails {self.rail_pos:+g}/{self.rail_neg:+g} V; "
-                "lower the amplitude or widen the rails")
+                f"{out_name}: an output of {shown} goes beyond the rails "
+                f"{self.rail_pos:+g}/{self.rail_neg:+g} V; lower the amplitude or widen the "
+                "rails")
         if t in ("non-inverting", "follower") and (
             ref + self.vin > self.rail_pos or ref - self.vin < self.rail_neg
         ):

@@ -4,7 +4,7 @@ With Zt the transimpedance, B the bandwidth asked for and m the design margin:
 
 - swing: the output reaches ref - I·Zt for every sensor current I of ``--iin`` (a peak p
   swings ±p·Zt; a DC range goes one way);
-- slew: SR >= m·2π·f·Vp,out for a peak current (a sine at the top frequency, default B),
+- slew: m·2π·f·Vp,out for a peak current (a sine at the top frequency, default B),
   SR >= m·2π·B·ΔV for a DC range (a step over the whole range ΔV = (high - low)·Zt
   through a single pole at B: the steepest slope of its response, an upper bound for
   the second-order loop; common practice, no source);
