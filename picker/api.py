@@ -527,6 +527,19 @@ def requirement_rows(req: Requirement) -> list[tuple[str, str]]:
             ("noise max (RMS)", opt(req.noise_max_v, "voltage")),
             ("ambient", f"{req.temp_min_c:g} .. {req.temp_max_c:g} °C"),
             ("channels", str(req.qty)), ("design margin", f"{req.margin:g}")]
+    if req.is_tia:  # the Norton form's gain and input volts mean nothing to a reader
+        assert req.iin_a is not None
+        rows = [r for r in rows if r[0] not in ("gain", "input amplitude", "source",
+                                                 "gain error", "resistor tolerance")]
+        rows[1:1] = [
+            ("sensor current", f"{fmt(req.iin_a[0], 'current', 4)} .. "
+                               f"{fmt(req.iin_a[1], 'current', 4)}"),
+            ("smallest current", fmt(req.iin_smallest, "current", 4)),
+            ("sensor capacitance", fmt(req.cdet_f, "capacitance", 4)),
+            ("sensor shunt", opt(req.rshunt_ohm, "resistance", "open")),
+            ("transimpedance", fmt(req.zt_ohm or 0.0, "resistance", 4)),
+            ("bandwidth (-3 dB)", fmt(req.band_hz or 0.0, "frequency", 4)),
+            ("response", req.tia_response)]
     if req.vcm is not None:
         rows.append(("input common mode", f"{req.vcm[0]:g} .. {req.vcm[1]:g} V"))
     if req.cmrr_min_db is not None:
@@ -535,8 +548,9 @@ def requirement_rows(req: Requirement) -> list[tuple[str, str]]:
         rows.append(("rail ripple", f"{fmt(req.ripple[0], 'voltage', 4)} peak at "
                                     f"{fmt(req.ripple[1], 'frequency', 4)}"))
     if req.network is not None:
-        rows.append(("network", ", ".join(f"{k} {fmt(v, 'resistance', 4)}"
-                                          for k, v in req.network.items())))
+        rows.append(("network", ", ".join(
+            f"{k} {fmt(v, 'capacitance' if k.startswith('c') else 'resistance', 4)}"
+            for k, v in req.network.items())))
     for f, v in req.assume.items():
         rows.append((f"assumed {f}", repr(v)))
     return rows
@@ -591,6 +605,12 @@ def note(req: Requirement, store: Any, part: str | None = None, *,
         for sid, make in (("network", lambda: design_network(b, row)),
                           ("waveform", lambda: waveform(b, store, part)),
                           ("response", lambda: response(b, store, part))):
+            if sid == "network" and b.is_tia:  # rf and cf, not a resistor network
+                assert b.network is not None
+                missing[sid] = (f"The feedback pair: rf {fmt(b.network['rf'], 'resistance')}, "
+                                f"cf {fmt(b.network['cf'], 'capacitance')} (picker net shows "
+                                "its design).")
+                continue
             try:
                 value = make()
             except PickerError as exc:
@@ -605,8 +625,10 @@ def note(req: Requirement, store: Any, part: str | None = None, *,
         others = [e.part for e in [*sel.accepted[:3], *sel.unverified[:3]] if e.part != part]
         env = envelope(b, store, [part, *others[:2]])
     return Note(
-        title=title or f"{b.topology} stage, gain {b.gain:.6g}, {fmt(b.vout, 'voltage', 4)} "
-                       f"peak at {fmt(b.freq_hz, 'frequency', 4)}",
+        title=title or (f"transimpedance stage, {fmt(b.zt_ohm or 0.0, 'resistance', 4)}, "
+                        f"-3 dB at {fmt(b.band_hz or 0.0, 'frequency', 4)}" if b.is_tia else
+                        f"{b.topology} stage, gain {b.gain:.6g}, {fmt(b.vout, 'voltage', 4)} "
+                        f"peak at {fmt(b.freq_hz, 'frequency', 4)}"),
         made=datetime.datetime.now().astimezone().isoformat(timespec="minutes"),
         database=database, version=__version__, requirement=requirement_rows(b),
         cautions=b.cautions, selection=sel, chosen=chosen, chosen_status=status,
@@ -636,6 +658,10 @@ def netlist(req: Requirement, store: Any, part: str) -> str:
     from picker.stages import stage
 
     b = built(req)
+    if b.is_tia:
+        raise BadValue("--topology", "transimpedance", "has no deck yet: its solver drives "
+                       "the sensor as a Norton source per volt, not as a current; use "
+                       "`picker bode` for its response")
     parts, masks = Parts(part_frame(store, part, DECK_FIELDS)).assuming(req.assume)
     values: dict[str, float] = {}
     notes = [f"{f} = {float(parts[f][0])!r} (--assume)" for f, m in masks.items()
