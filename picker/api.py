@@ -70,6 +70,10 @@ def built(req: Requirement, series: SeriesName = DEFAULT_SERIES) -> Requirement:
         from picker.design.filternet import with_filter_network
 
         return with_filter_network(req, series)
+    if req.is_tia:  # rf from the series, cf from --cap-series (picker.design.tianet)
+        from picker.design.tianet import with_tia_network
+
+        return with_tia_network(req, series)
     return with_designed_network(req, series=series)
 
 
@@ -264,6 +268,10 @@ def design_network(req: Requirement, part: Mapping[str, Any] | None = None, *,
         from picker.design.filternet import design_filter
 
         return design_filter(req, series)
+    if req.is_tia:  # picker.design.tianet.TiaNetwork
+        from picker.design.tianet import design_tia
+
+        return design_tia(req, series)
     full = req.network is not None or (req.rf_pinned and req.rg_ohm is not None) or (
         req.topology == "follower" and req.rf_pinned)
     if check and not full and kind(req.topology).pair_names is not None:
@@ -377,7 +385,8 @@ def response(req: Requirement, store: Any, part: str, freq_hz: float | None = No
     -------
     picker.design.response.Response, or picker.design.filterresp.FilterResponse
         One row; ``summary(0)`` is ``picker bode PART --json`` (Hz, dB, degrees; a filter
-        adds the section the part makes, f0, Q and pass-band gain, and its -3 dB edges).
+        adds the section the part makes, f0, Q and pass-band gain, and its -3 dB edges;
+        a transimpedance stage's gains are the transimpedance in dB re 1 Ω).
     """
     from picker.design.response import COLUMNS
     from picker.design.response import response as resp
@@ -388,8 +397,16 @@ def response(req: Requirement, store: Any, part: str, freq_hz: float | None = No
         fr = filter_resp(built(req), part_frame(store, part, COLUMNS), freq_hz)
         _need_known(bool(fr.known[0]), part, "gain-bandwidth product")
         return fr
-    out = resp(built(req), part_frame(store, part, COLUMNS), freq_hz)
+    b = built(req)
+    out = resp(b, part_frame(store, part, COLUMNS), freq_hz)
     _need_known(bool(out.known[0]), part, "gain-bandwidth product")
+    if b.is_tia:  # per volt of the Norton source -> transimpedance, dB re 1 Ω
+        import dataclasses
+
+        shift = 20 * math.log10(b.norton_ohm)
+        out = dataclasses.replace(out, gain_db=out.gain_db + shift,
+                                  dc_gain_db=out.dc_gain_db + shift,
+                                  gain_at_f=out.gain_at_f + shift)
     return out
 
 
@@ -517,6 +534,19 @@ def requirement_rows(req: Requirement) -> list[tuple[str, str]]:
             ("noise max (RMS)", opt(req.noise_max_v, "voltage")),
             ("ambient", f"{req.temp_min_c:g} .. {req.temp_max_c:g} °C"),
             ("channels", str(req.qty)), ("design margin", f"{req.margin:g}")]
+    if req.is_tia:  # the Norton form's gain and input volts mean nothing to a reader
+        assert req.iin_a is not None
+        rows = [r for r in rows if r[0] not in ("gain", "input amplitude", "source",
+                                                 "gain error", "resistor tolerance")]
+        rows[1:1] = [
+            ("sensor current", f"{fmt(req.iin_a[0], 'current', 4)} .. "
+                               f"{fmt(req.iin_a[1], 'current', 4)}"),
+            ("smallest current", fmt(req.iin_smallest, "current", 4)),
+            ("sensor capacitance", fmt(req.cdet_f, "capacitance", 4)),
+            ("sensor shunt", opt(req.rshunt_ohm, "resistance", "open")),
+            ("transimpedance", fmt(req.zt_ohm or 0.0, "resistance", 4)),
+            ("bandwidth (-3 dB)", fmt(req.band_hz or 0.0, "frequency", 4)),
+            ("response", req.tia_response)]
     if req.vcm is not None:
         rows.append(("input common mode", f"{req.vcm[0]:g} .. {req.vcm[1]:g} V"))
     if req.cmrr_min_db is not None:
@@ -525,8 +555,9 @@ def requirement_rows(req: Requirement) -> list[tuple[str, str]]:
         rows.append(("rail ripple", f"{fmt(req.ripple[0], 'voltage', 4)} peak at "
                                     f"{fmt(req.ripple[1], 'frequency', 4)}"))
     if req.network is not None:
-        rows.append(("network", ", ".join(f"{k} {fmt(v, 'resistance', 4)}"
-                                          for k, v in req.network.items())))
+        rows.append(("network", ", ".join(
+            f"{k} {fmt(v, 'capacitance' if k.startswith('c') else 'resistance', 4)}"
+            for k, v in req.network.items())))
     for f, v in req.assume.items():
         rows.append((f"assumed {f}", repr(v)))
     return rows
@@ -581,6 +612,12 @@ def note(req: Requirement, store: Any, part: str | None = None, *,
         for sid, make in (("network", lambda: design_network(b, row)),
                           ("waveform", lambda: waveform(b, store, part)),
                           ("response", lambda: response(b, store, part))):
+            if sid == "network" and b.is_tia:  # rf and cf, not a resistor network
+                assert b.network is not None
+                missing[sid] = (f"The feedback pair: rf {fmt(b.network['rf'], 'resistance')}, "
+                                f"cf {fmt(b.network['cf'], 'capacitance')} (picker net shows "
+                                "its design).")
+                continue
             try:
                 value = make()
             except PickerError as exc:
@@ -595,8 +632,10 @@ def note(req: Requirement, store: Any, part: str | None = None, *,
         others = [e.part for e in [*sel.accepted[:3], *sel.unverified[:3]] if e.part != part]
         env = envelope(b, store, [part, *others[:2]])
     return Note(
-        title=title or f"{b.topology} stage, gain {b.gain:.6g}, {fmt(b.vout, 'voltage', 4)} "
-                       f"peak at {fmt(b.freq_hz, 'frequency', 4)}",
+        title=title or (f"transimpedance stage, {fmt(b.zt_ohm or 0.0, 'resistance', 4)}, "
+                        f"-3 dB at {fmt(b.band_hz or 0.0, 'frequency', 4)}" if b.is_tia else
+                        f"{b.topology} stage, gain {b.gain:.6g}, {fmt(b.vout, 'voltage', 4)} "
+                        f"peak at {fmt(b.freq_hz, 'frequency', 4)}"),
         made=datetime.datetime.now().astimezone().isoformat(timespec="minutes"),
         database=database, version=__version__, requirement=requirement_rows(b),
         cautions=b.cautions, selection=sel, chosen=chosen, chosen_status=status,
@@ -626,6 +665,10 @@ def netlist(req: Requirement, store: Any, part: str) -> str:
     from picker.stages import stage
 
     b = built(req)
+    if b.is_tia:
+        raise BadValue("--topology", "transimpedance", "has no deck yet: its solver drives "
+                       "the sensor as a Norton source per volt, not as a current; use "
+                       "`picker bode` for its response")
     parts, masks = Parts(part_frame(store, part, DECK_FIELDS)).assuming(req.assume)
     values: dict[str, float] = {}
     notes = [f"{f} = {float(parts[f][0])!r} (--assume)" for f, m in masks.items()

@@ -117,13 +117,14 @@ def _registry() -> tuple[Check, ...]:
         rejection,
         stability,
         thermal,
+        tia,
     )
 
     return (limits.SWING, limits.COMMON_MODE, rejection.CMRR_CHECK, limits.SLEW,
             gain.GAIN_ACCURACY, gain.PHASE, stability.STABILITY, limits.OUTPUT_CURRENT,
             limits.SUPPLY, thermal.DISSIPATION, protection.INPUT_PROTECTION,
             accuracy.OFFSET, accuracy.NOISE,
-            limits.STOCK, *filters.CHECKS)
+            limits.STOCK, *filters.CHECKS, *tia.CHECKS)
 
 
 _CHECKS: tuple[Check, ...] | None = None

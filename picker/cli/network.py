@@ -64,7 +64,7 @@ def net(stage: dict[str, Any], series: str, check: bool,
     from picker.report.tables import to_json
 
     req = build_requirement(stage)
-    if req.is_filter:
+    if req.is_filter or req.is_tia:
         _filter_net(req, series, part, as_json)
         save_requirement(stage, save, db)
         return
@@ -84,20 +84,24 @@ def net(stage: dict[str, Any], series: str, check: bool,
 
 
 def _filter_net(req: Any, series: str, part: str | None, as_json: bool) -> None:
-    """``picker net`` for a filter stage: capacitors, resistors and their spread."""
+    """``picker net`` for a filter stage (capacitors, resistors and their spread) or a
+    transimpedance stage (rf, cf and the GBW they ask)."""
     from picker import api
     from picker.errors import BadValue
     from picker.report.filters import net_text
     from picker.report.tables import to_json
 
     if part is not None:
-        raise BadValue("--part", part, "applies to the resistive stages; for a filter, "
-                       "`picker why PART` and `picker bode PART` show the section the part "
-                       "makes")
+        raise BadValue("--part", part, "applies to the resistive stages; for a filter or a "
+                       "transimpedance stage, `picker why PART` and `picker bode PART` show "
+                       "what the part makes of it")
     network = api.design_network(req, series=series)  # type: ignore[arg-type]
     if as_json:
         click.echo(to_json(network.as_json()))
         for c in req.cautions:
             click.echo(c, err=True)
+        return
+    if req.is_tia:
+        click.echo(network.text(req.cautions))
         return
     click.echo(net_text(network, req.cautions))

@@ -63,6 +63,13 @@ RANGES: dict[str, tuple[float, float, str]] = {
     "response-error": (1e-6, 0.5, "(1 ppm to 50%)"),
     "fmin": (1e-3, 1e9, "Hz (1 mHz to 1 GHz)"),
     "low-corner": (1e-4, 1e9, "Hz (0.1 mHz to 1 GHz)"),
+    "iin": (1e-15, 1.0, "A (1 fA to 1 A)"),
+    "iin-min": (1e-15, 1.0, "A (1 fA to 1 A)"),
+    "cdet": (0.0, 1e-6, "F (0 to 1 µF)"),
+    "rshunt": (1.0, 1e15, "Ω (1 Ω to 1 PΩ)"),
+    "zt": (1.0, 1e12, "Ω (1 Ω to 1 TΩ)"),
+    "f3db": (1e-3, 1e9, "Hz (1 mHz to 1 GHz)"),
+    "rise": (1e-12, 1e3, "s (1 ps to 1000 s)"),
 }
 
 #: The response shapes of a low- or high-pass section (trade terms).
@@ -325,6 +332,56 @@ def _cap_series(raw: Any, name: str) -> dict[str, Any]:
     return {"cap_series": cs}
 
 
+def _currents(value: Any, name: str) -> tuple[float, float]:
+    """A peak current (``10uA``: (-p, p)) or a DC range (``0..10uA``, ``[-1uA, 5uA]``),
+    signed, A."""
+    def one(v: Any) -> float:
+        x = parse(v, "current", name, allow_negative=True)
+        if x != 0:
+            ranged("iin", abs(x), name, value)
+        return x
+
+    if isinstance(value, list | tuple):
+        if len(value) != 2:
+            raise BadValue(name, Brief(value), "needs two currents, low and high, e.g. "
+                           "[0, '10uA']")
+        lo, hi = one(value[0]), one(value[1])
+    elif isinstance(value, str) and ".." in value:
+        a, b = value.split("..", 1)
+        unit = "".join(ch for ch in b if ch.isalpha())
+        a = a if any(ch.isalpha() for ch in a) else a + unit
+        lo, hi = one(a), one(b)
+    else:
+        p = abs(one(value))
+        if p == 0:
+            raise BadValue(name, Brief(value), "is zero; give the peak signal current, e.g. "
+                           "10uA")
+        return -p, p
+    if lo > hi:
+        raise BadValue(name, Brief(value), "write the range low..high, e.g. 0..10uA")
+    if lo == hi:
+        raise BadValue(name, Brief(value), "is a single level; give a range, e.g. 0..10uA, "
+                       "or a peak, e.g. 10uA")
+    return lo, hi
+
+
+def _iin(raw: Any, name: str) -> dict[str, Any]:
+    return {"iin_a": _currents(raw, name)}
+
+
+def _rshunt(raw: Any, name: str) -> dict[str, Any]:
+    if optional(raw) or str(raw).strip().lower() == "inf":
+        return {"rshunt_ohm": None}
+    return {"rshunt_ohm": ranged("rshunt", parse(raw, "resistance", name, allow_zero=False),
+                                 name, raw)}
+
+
+def _tia_response(raw: Any, name: str) -> dict[str, Any]:
+    from picker.stages.transimpedance import RESPONSE_Q  # the stage owns its responses
+
+    return _choice("tia_response", tuple(RESPONSE_Q), "a response")(raw, name)
+
+
 _TOPOLOGIES: tuple[str, ...] = tuple(kinds())  # every registered stage type
 
 #: Every requirement key, in the order of --help and the design-file template.
@@ -462,6 +519,31 @@ KEYS: tuple[Key, ...] = (
                                                  positive=True),
         "with coupling ac: the highest low-frequency -3 dB point allowed", "fmin/10", '"2Hz"',
         kind="frequency", positive=True, unit=" Hz", words="Hz"),
+    # the transimpedance stage (picker.stages.transimpedance)
+    Key("iin", "iin_a", _iin, "transimpedance: sensor current, its peak (10uA) or a DC range "
+        "(0..10uA); positive flows into the inverting input",
+        "none: required for transimpedance", '"10uA"', unit=" A", words="A, peak or low..high"),
+    Key("iin-min", "iin_min_a", _quantity("iin-min", "iin_min_a", "current", positive=True),
+        "transimpedance: smallest signal current to resolve", "the peak", '"100nA"',
+        kind="current", positive=True, unit=" A", words="A"),
+    Key("cdet", "cdet_f", _quantity("cdet", "cdet_f", "capacitance"),
+        "transimpedance: the sensor's own capacitance, e.g. 10pF", "0", '"10pF"',
+        kind="capacitance", unit=" F", words="F"),
+    Key("rshunt", "rshunt_ohm", _rshunt, "transimpedance: the sensor's shunt resistance",
+        "open", '"1G"', kind="resistance", positive=True, unit=" Ω", words="Ω"),
+    Key("zt", "zt_ohm", _quantity("zt", "zt_ohm", "resistance", positive=True),
+        "transimpedance: V/A wanted, e.g. 100k (or the output swing vout)", "none: zt or vout",
+        '"100k"', kind="resistance", positive=True, unit=" Ω", words="Ω"),
+    Key("f3db", "band_hz", _quantity("f3db", "band_hz", "frequency", positive=True),
+        "transimpedance: -3 dB bandwidth wanted, e.g. 100kHz", "none: f3db or rise",
+        '"100kHz"', kind="frequency", positive=True, unit=" Hz", words="Hz"),
+    Key("rise", "rise_s", _quantity("rise", "rise_s", "time", positive=True),
+        "transimpedance: 10-90% rise time wanted instead of f3db (bandwidth 0.35/rise)",
+        "none: f3db or rise", '"3.5us"', kind="time", positive=True, unit=" s", words="s"),
+    Key("tia-response", "tia_response", _tia_response,
+        "transimpedance: response the feedback capacitor is designed for (butterworth, "
+        "bessel, critical)", "butterworth", '"butterworth"', kind="choice",
+        choices=("butterworth", "bessel", "critical")),
 )
 
 #: key name -> Key

@@ -38,7 +38,7 @@ from picker.errors import BadRequirement, BadValue
 from picker.stages import kind, kinds
 
 Topology = Literal["inverting", "non-inverting", "follower", "difference", "vcvs-lowpass",
-                   "vcvs-highpass", "mfb-lowpass", "mfb-bandpass"]
+                   "vcvs-highpass", "mfb-lowpass", "mfb-bandpass", "transimpedance"]
 TOPOLOGIES: tuple[Topology, ...] = get_args(Topology)
 
 #: Extra-low voltage limit for DC (IEC 61140 practice): beyond it, a caution.
@@ -52,6 +52,14 @@ KEYS: dict[str, str] = {k.name: k.field for k in _keys.KEYS}
 #: Keys that describe a filter section; other stages refuse them.
 FILTER_KEYS = ("f0", "response", "passband-ripple", "bandwidth")
 Label = Callable[[str], str]
+
+#: Keys of the transimpedance stage; other stages refuse them.
+TIA_KEYS = ("iin", "iin-min", "cdet", "rshunt", "zt", "f3db", "rise", "tia-response")
+#: Keys a transimpedance stage refuses (its input is a current, set by --iin).
+TIA_REFUSED = ("gain", "vin", "source", "rg", "rin", "zin")
+#: 10-90% rise time x -3 dB bandwidth of a single pole, 0.35 (ln 9/2π; common practice,
+#: no source): --rise gives the bandwidth 0.35/rise.
+RISE_PRODUCT = 0.35
 
 def option_label(key: str) -> str:
     """How a key is named on the command line: ``--gain-error``."""
@@ -125,6 +133,49 @@ class Requirement:
     coupling: Literal["dc", "ac"] = "dc"
     fmin_hz: float | None = None
     low_corner_hz: float | None = None
+    # the transimpedance stage (picker.stages.transimpedance): the sensor current, signed
+    # (low, high) A (a peak p is (-p, p)); positive flows into the inverting input
+    iin_a: tuple[float, float] | None = None
+    iin_min_a: float | None = None  # smallest signal current to resolve, A (default: peak)
+    cdet_f: float = 0.0  # the sensor's own capacitance (photodiode), F
+    rshunt_ohm: float | None = None  # the sensor's shunt resistance, Ω (None: open)
+    zt_ohm: float | None = None  # transimpedance asked for, Ω
+    band_hz: float | None = None  # -3 dB bandwidth asked for, Hz
+    rise_s: float | None = None  # 10-90% rise time asked for instead, s
+    tia_response: str = "butterworth"  # the response cf is designed for
+
+    @property
+    def is_tia(self) -> bool:
+        """True for the transimpedance stage."""
+        return self.topology == "transimpedance"
+
+    @property
+    def iin_peak(self) -> float:
+        """Largest magnitude of the sensor current, A."""
+        assert self.iin_a is not None
+        return max(abs(self.iin_a[0]), abs(self.iin_a[1]))
+
+    @property
+    def iin_smallest(self) -> float:
+        """The smallest signal current to resolve, A (--iin-min, default the peak)."""
+        return self.iin_peak if self.iin_min_a is None else self.iin_min_a
+
+    @property
+    def norton_ohm(self) -> float:
+        """The Norton resistance of the sensor in the netlist, Ω (the shunt, or
+        OPEN_FACTOR x the transimpedance for an open shunt)."""
+        from picker.stages.transimpedance import norton_ohm
+
+        assert self.zt_ohm is not None
+        return norton_ohm(self.zt_ohm, self.rshunt_ohm)
+
+    def output_levels(self) -> tuple[float, float]:
+        """Lowest and highest output level the signal reaches, V (a transimpedance
+        stage's DC range goes one way: vo = ref - I·Zt)."""
+        if self.is_tia and self.iin_a is not None and self.zt_ohm is not None:
+            a, b = (self.ref - i * self.zt_ohm for i in self.iin_a)
+            return min(a, b), max(a, b)
+        return self.ref - self.vout, self.ref + self.vout
 
     @property
     def is_filter(self) -> bool:
@@ -227,11 +278,16 @@ class Requirement:
                 f"{label('ref')}: {ref:g} V lies outside the rails "
                 f"{self.rail_pos:+g}/{self.rail_neg:+g} V; choose a level between them")
         out_name = label("vout") if self.vout_pk is not None else label("vin")
-        if ref + self.vout > self.rail_pos or ref - self.vout < self.rail_neg:
+        if self.is_tia:
+            out_name = label("iin")
+        low, high = self.output_levels()
+        if high > self.rail_pos or low < self.rail_neg:
+            shown = (f"{low:g} .. {high:g} V (ref - I·Zt)" if self.is_tia
+                     else f"{self.vout:g} Vpk around {ref:g} V")
             raise BadRequirement(
-                f"{out_name}: an output of {self.vout:g} Vpk around {ref:g} V goes beyond the "
-                f"rails {self.rail_pos:+g}/{self.rail_neg:+g} V; lower the amplitude or "
-                "widen the rails")
+                f"{out_name}: an output of {shown} goes beyond the rails "
+                f"{self.rail_pos:+g}/{self.rail_neg:+g} V; lower the amplitude or widen the "
+                "rails")
         if t in ("non-inverting", "follower") and (
             ref + self.vin > self.rail_pos or ref - self.vin < self.rail_neg
         ):
@@ -286,6 +342,7 @@ class Requirement:
                                      "level a stage on these rails sees; check the units")
         self._validate_filter(label)
         self._validate_coupling(label)
+        self._validate_tia(label)
         if not (self.cload_f >= 0 and math.isfinite(self.cload_f)):
             raise BadRequirement(f"{label('cload')}: the load capacitance must be >= 0 F")
         if not (0 < self.phase_margin_deg < 90):
@@ -388,6 +445,39 @@ class Requirement:
                                  f"{t} section (a non-inverting amplifier) cannot make; use "
                                  "mfb-lowpass, or a divider before the section")
 
+    def _validate_tia(self, label: Label) -> None:
+        """The transimpedance keys: given only for that stage, complete for it."""
+        given = {"iin": self.iin_a, "iin-min": self.iin_min_a, "rshunt": self.rshunt_ohm,
+                 "zt": self.zt_ohm, "f3db": self.band_hz, "rise": self.rise_s}
+        if not self.is_tia:
+            for name, v in given.items():
+                if v is not None:
+                    raise BadRequirement(f"{label(name)}: applies to the transimpedance stage "
+                                         f"only (the {self.topology} stage's input is a "
+                                         "voltage); omit it")
+            if self.cdet_f:
+                raise BadRequirement(f"{label('cdet')}: applies to the transimpedance stage "
+                                     "only; omit it")
+            return
+        if self.iin_a is None or self.iin_peak <= 0:
+            raise BadRequirement(f"{label('iin')}: missing; give the sensor current's peak, "
+                                 "e.g. --iin 10uA, or its DC range, e.g. --iin 0..10uA")
+        if self.zt_ohm is None or not self.zt_ohm > 0:
+            raise BadRequirement(f"{label('zt')}: missing; give the transimpedance, e.g. "
+                                 "--zt 100k, or the output swing --vout")
+        if self.band_hz is None or not self.band_hz > 0:
+            raise BadRequirement(f"{label('f3db')}: missing; give the -3 dB bandwidth, e.g. "
+                                 "--f3db 100kHz, or the rise time --rise")
+        if self.tia_response not in _tia_responses():
+            raise BadRequirement(f"{label('tia-response')}: {self.tia_response!r} is not a "
+                                 "response; use one of " + ", ".join(_tia_responses()))
+        if self.iin_min_a is not None and self.iin_min_a > self.iin_peak:
+            raise BadRequirement(f"{label('iin-min')}: {self.iin_min_a:g} A is above the "
+                                 f"peak current {self.iin_peak:g} A; give the smallest "
+                                 "signal to resolve")
+        if not (self.cdet_f >= 0 and math.isfinite(self.cdet_f)):
+            raise BadRequirement(f"{label('cdet')}: the sensor capacitance must be >= 0 F")
+
     # -- construction from user text ---------------------------------------------------
     @classmethod
     def from_mapping(cls, d: Mapping[str, Any], where: str = "--") -> Requirement:
@@ -397,6 +487,50 @@ class Requirement:
         ``"stage.toml: "`` gives ``stage.toml: freq: ...``.
         """
         return _build({normal_key(k, where): (v, where) for k, v in d.items() if v is not None})
+
+
+def _tia_responses() -> tuple[str, ...]:
+    from picker.stages.transimpedance import RESPONSE_Q
+
+    return tuple(RESPONSE_Q)
+
+
+def _tia_fill(kw: dict[str, Any], values: Mapping[str, Any], lab: Label) -> None:
+    """Complete a transimpedance requirement: transimpedance from --vout, bandwidth from
+    --rise, and the Norton form's gain and input amplitude (picker.stages.transimpedance)."""
+    from picker.stages.transimpedance import norton_ohm
+
+    for key in TIA_REFUSED:
+        if key in values:
+            raise BadRequirement(f"{lab(key)}: a transimpedance stage is driven by a current; "
+                                 "give --iin (and --zt or --vout) instead; omit it")
+    if "iin_a" not in kw:
+        raise BadRequirement(f"{lab('iin')}: missing; give the sensor current's peak, e.g. "
+                             "--iin 10uA, or its DC range, e.g. --iin 0..10uA")
+    peak = max(abs(kw["iin_a"][0]), abs(kw["iin_a"][1]))
+    vout = kw.pop("vout_pk", None)
+    if "zt_ohm" in kw and vout is not None:
+        raise BadRequirement(f"{lab('zt')}: give the transimpedance or the output swing "
+                             "--vout, not both")
+    if vout is not None:
+        kw["zt_ohm"] = vout / peak
+    elif "zt_ohm" not in kw:
+        if not kw.get("rf_pinned"):
+            raise BadRequirement(f"{lab('zt')}: missing; give the transimpedance, e.g. "
+                                 "--zt 100k, or the output swing --vout")
+        kw["zt_ohm"] = kw["rf_ohm"]
+    if "band_hz" in kw and "rise_s" in kw:
+        raise BadRequirement(f"{lab('rise')}: give the bandwidth --f3db or the rise time "
+                             "--rise, not both")
+    if "rise_s" in kw:
+        kw["band_hz"] = RISE_PRODUCT / kw["rise_s"]
+    if "band_hz" not in kw:
+        raise BadRequirement(f"{lab('f3db')}: missing; give the -3 dB bandwidth, e.g. "
+                             "--f3db 100kHz, or the rise time --rise")
+    kw.setdefault("freq_hz", kw["band_hz"])
+    rn = norton_ohm(kw["zt_ohm"], kw.get("rshunt_ohm"))
+    kw["gain"] = kw["zt_ohm"] / rn  # per volt of the Norton source (stage docstring)
+    kw["vin_pk"] = peak * rn
 
 
 def normal_key(key: str, where: str = "--") -> str:
@@ -460,6 +594,8 @@ def _build(values: Mapping[str, tuple[Any, str]]) -> Requirement:
                              "frequency, e.g. --f0 1kHz")
     if filt and "freq_hz" not in kw:
         kw["freq_hz"] = 10 * kw["f0_hz"]  # the top of the band a section acts on
+    if kw["topology"] == "transimpedance":
+        _tia_fill(kw, values, lab)
     if "gain" not in kw:
         if kw["topology"] != "follower" and not filt:
             raise BadRequirement(f"{lab('gain')}: missing; give the signal gain, e.g. --gain 10 "

@@ -116,6 +116,10 @@ class Spec:
             from picker.design.filterspec import filter_rows
 
             rows = filter_rows(self)
+        elif self.requirement.is_tia:  # here: tiaspec imports this module
+            from picker.design.tiaspec import tia_rows
+
+            rows = tia_rows(self)
         else:
             rows = stage_rows(self)
         for check in applicable(self):
@@ -259,6 +263,12 @@ def minimum_specs(req: Requirement) -> Spec:
 
         assert isinstance(st, FilterStage)
         return _with_left_out(filter_specs(req, st))
+    if req.is_tia:  # a transimpedance stage (picker.design.tiaspec)
+        from picker.design.tiaspec import tia_specs  # here: it imports this module
+        from picker.stages.transimpedance import TiaStage
+
+        assert isinstance(st, TiaStage)
+        return _with_left_out(tia_specs(req, st))
     m, f, vp, ref = req.margin, req.freq_hz, req.vout, req.ref
     budget, a0, rin, gbw = _split(req, st)
     cm_low, cm_high = kind(req.topology).input_levels(req, st)

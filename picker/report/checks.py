@@ -44,6 +44,8 @@ def stage_line(req: Requirement) -> str:
     """One line naming the stage as asked."""
     if req.is_filter:
         return filter_line(req)
+    if req.is_tia:
+        return tia_line(req)
     gain = "" if req.topology == "follower" else (
         f" x{_g(req.gain)} ({_g(20 * math.log10(req.gain), 3)} dB)")
     load = "no load" if req.load_ohm is None else f"load {fmt(req.load_ohm, 'resistance')}"
@@ -54,6 +56,21 @@ def stage_line(req: Requirement) -> str:
             f"rails {req.rail_pos:+g}/{req.rail_neg:+g} V, ref {_g(req.ref)} V; {load}{src}; "
             f"gain error {fmt(req.gain_error, 'ratio')} with {fmt(req.tolerance, 'ratio')} resistors "
             f"({req.tolerance_rule}); {temp}; margin {req.margin:g}")
+
+
+def tia_line(req: Requirement) -> str:
+    """One line naming a transimpedance stage as asked."""
+    assert req.iin_a is not None
+    lo, hi = req.iin_a
+    cur = (f"{fmt(hi, 'current')} peak" if lo == -hi else
+           f"{fmt(lo, 'current')}..{fmt(hi, 'current')}")
+    load = "no load" if req.load_ohm is None else f"load {fmt(req.load_ohm, 'resistance')}"
+    shunt = ("open" if req.rshunt_ohm is None else fmt(req.rshunt_ohm, 'resistance'))
+    return (f"transimpedance {fmt(req.zt_ohm or 0.0, 'resistance')}, {cur} from "
+            f"{fmt(req.cdet_f, 'capacitance')} (shunt {shunt}), -3 dB at "
+            f"{fmt(req.band_hz or 0.0, 'frequency')} ({req.tia_response}); rails "
+            f"{req.rail_pos:+g}/{req.rail_neg:+g} V, ref {_g(req.ref)} V; {load}; "
+            f"margin {req.margin:g}")
 
 
 def filter_line(req: Requirement) -> str:
@@ -101,8 +118,12 @@ def spec_text(spec: Spec, explain: bool = False) -> str:
 
     req = spec.requirement
     lines = [f"Stage: {stage_line(req)}", *cautions_block(spec.cautions), ""]
-    lines.append(f"signal gain {_g(spec.signal_gain, 6)} V/V, noise gain "
-                 f"{_g(spec.noise_gain, 6)} V/V")
+    if spec.requirement.is_tia:
+        lines.append(f"transimpedance {fmt(spec.stage.rf, 'resistance', 6)}, DC noise gain "
+                     f"{_g(spec.noise_gain, 6)} V/V")
+    else:
+        lines.append(f"signal gain {_g(spec.signal_gain, 6)} V/V, noise gain "
+                     f"{_g(spec.noise_gain, 6)} V/V")
     if spec.stage.coupling is not None:
         lines += [*coupling_lines(spec.stage.coupling), ""]
     if explain:
@@ -114,9 +135,14 @@ def spec_text(spec: Spec, explain: bool = False) -> str:
         rows = [[title, _value(getattr(mn, k), kind)] for k, title, kind in _SPEC_ROWS]
         rows.append(["input common-mode range", f"{_g(mn.cm_low_v)} V .. {_g(mn.cm_high_v)} V"])
         lines.append(tabulate(rows, headers=["minimum", "value"], disable_numparse=True))
-        budget = next(e for e in spec.explain if e.name in ("gain_budget", "response_budget"))
-        lines += ["", f"{'gain-error' if budget.name == 'gain_budget' else 'response'} budget: "
-                      f"{budget.numbers}"]
+        budget = next((e for e in spec.explain if e.name in ("gain_budget", "response_budget")),
+                      None)
+        if budget is not None:
+            lines += ["", f"{'gain-error' if budget.name == 'gain_budget' else 'response'} "
+                          f"budget: {budget.numbers}"]
+        for e in spec.explain:  # a transimpedance stage's own lines
+            if e.name in ("transimpedance", "feedback_pole", "tia_loop"):
+                lines += ["", f"{e.title}: {e.numbers}"]
     lines += ["", *[f"note: {n}" for n in spec.notes]]
     return "\n".join(lines)
 

@@ -21,6 +21,10 @@ def thd_text(thd: float) -> str:
 
 def stage_line(req: Requirement, freq_hz: float) -> str:
     """One line naming the stage and its test signal."""
+    if req.is_tia:
+        from picker.report.checks import tia_line
+
+        return tia_line(req)
     return (f"{req.topology}, gain {req.gain:g} V/V, {fmt(req.vin, 'voltage')} peak sine at "
             f"{fmt(freq_hz, 'frequency')}, rails {req.rail_pos:+g}/{req.rail_neg:+g} V, "
             f"reference {fmt(req.ref, 'voltage')}, load "
@@ -74,13 +78,17 @@ def bode_text(resp: Response, i: int, req: Requirement) -> str:
     from tabulate import tabulate
 
     f3 = resp.f3db[i]
+    unit = "dBΩ" if req.is_tia else "dB"  # a transimpedance: dB re 1 Ω (api.response)
+    dc = (["DC transimpedance", f"{resp.dc_gain_db[i]:.3f} dBΩ = "
+           f"{fmt(10 ** (resp.dc_gain_db[i] / 20), 'resistance', 5)}"] if req.is_tia
+          else ["DC gain", f"{resp.dc_gain_db[i]:.3f} dB"])
     rows = [
         ["part", resp.labels[i]],
         ["stage", stage_line(req, resp.freq_hz)],
         ["network", network_text(req)],
-        ["DC gain", f"{resp.dc_gain_db[i]:.3f} dB"],
+        dc,
         ["-3 dB frequency", fmt(f3, "frequency") if math.isfinite(f3) else "none"],
-        [f"gain at {fmt(resp.freq_hz, 'frequency')}", f"{resp.gain_at_f[i]:.3f} dB"],
+        [f"gain at {fmt(resp.freq_hz, 'frequency')}", f"{resp.gain_at_f[i]:.3f} {unit}"],
         [f"phase at {fmt(resp.freq_hz, 'frequency')}",
          f"{resp.phase_at_f[i]:.2f}° (from the ideal stage; an inversion's 180° taken out)"],
         ["plotted span", f"{fmt(float(resp.freqs[0]), 'frequency')} .. "

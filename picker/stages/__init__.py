@@ -11,6 +11,7 @@ from picker.stages import (
     mfb_bandpass,
     mfb_lowpass,
     non_inverting,
+    transimpedance,
     vcvs_highpass,
     vcvs_lowpass,
 )
@@ -25,6 +26,7 @@ register(vcvs_lowpass.KIND)
 register(vcvs_highpass.KIND)
 register(mfb_lowpass.KIND)
 register(mfb_bandpass.KIND)
+register(transimpedance.KIND)
 
 __all__ = ["Stage", "StageType", "kind", "kinds", "parallel", "register", "stage",
            "unregister"]

@@ -191,7 +191,15 @@ def test_template_lists_every_key_and_reads_as_a_stage(tmp_path: Path) -> None:
             stage.setdefault("f0", "1kHz")
             if key == "passband-ripple":
                 stage["response"] = "chebyshev"
-        if key == "vout":
+        if key in ("iin", "iin-min", "cdet", "rshunt", "zt", "f3db", "rise", "tia-response"):
+            stage["topology"] = "transimpedance"
+            for k in ("gain", "vin", "freq"):
+                stage.pop(k, None)
+            stage.setdefault("iin", "10uA")
+            if key != "rise":
+                stage.setdefault("f3db", "100kHz")
+            stage.setdefault("zt", "100k")
+        if key == "vout" and stage.get("topology") != "transimpedance":
             del stage["vin"]
         if key in ("coupling", "fmin", "low-corner"):  # the AC-coupling keys go together
             stage["coupling"] = "ac"
