@@ -477,7 +477,7 @@ def with_designed_network(req: Requirement, part: Mapping[str, Any] | nm.PartDat
     if req.network is not None:
         return req
     net = design_network(req, part, series=series)
-    return req.with_changes(network=dict(net.network))
+    return req.with_changes(network=dict(net.network), network_designed=True)
 
 
 __all__ = ["COMP_MIN_IMPROVEMENT", "Network", "TIE", "design_network", "exact_gain",
