@@ -14,8 +14,8 @@ from picker.design.requirement import Requirement
 from picker.design.tolerance import STANDARD_TOLERANCES
 from picker.errors import BadRequirement
 
-GAINS = (2.0, 4.7, 10.0, 33.0, 100.0, 1000.0)
-BUDGETS = (0.001, 0.003, 0.01, 0.02, 0.05)
+GAINS = (2.0, 10.0, 100.0, 1000.0)
+BUDGETS = (0.001, 0.005, 0.02, 0.05)
 SPEC = re.compile(r"; ([0-9.]+)% resistors leave it at least half \(--tolerance ([0-9.]+)%\)")
 
 
