@@ -96,7 +96,8 @@ def parts_for(spec_: Spec, store: Any) -> Parts:
 
 
 def pick(req: Requirement, parts: Parts | Any, *, by: By = "margin", top: int | None = None,
-         strict: bool = False, misses: int | None = None) -> Selection:
+         strict: bool = False, misses: int | None = None,
+         network_per_part: bool = False) -> Selection:
     """Check every part against the stage as built; rank the accepted ones.
 
     Parameters
@@ -114,17 +115,35 @@ def pick(req: Requirement, parts: Parts | Any, *, by: By = "margin", top: int | 
         How many of the closest rejected parts get their nearest misses (how far the
         stage would have to move for each to pass); default 3 when nothing is accepted,
         none otherwise.
+    network_per_part : bool
+        Design the network for each part (its output, bias and noise currents, Rin and
+        A0 become limits: picker.design.netparts) and check each part with its own;
+        default: one network, designed without a part, for every part. A stage whose
+        network is given (or that has none to design) keeps it for every part.
 
     Returns
     -------
     Selection
-        Accepted, rejected and unverified parts with every check's record;
-        ``to_json()`` is ``picker pick --json --list all``.
+        Accepted, rejected and unverified parts with every check's record (with
+        ``network_per_part``, each part's network); ``to_json()`` is
+        ``picker pick --json --list all``.
     """
     b = built(req)
     if hasattr(parts, "parts_columns"):
-        parts = parts_for(minimum_specs(b), parts)
-    return select(parts, b, by=by, top=top, strict=strict, misses=misses)
+        columns = needed_columns(minimum_specs(b))
+        if network_per_part:
+            from picker.design.netparts import PART_FIELDS
+
+            columns = tuple(dict.fromkeys([*columns, *PART_FIELDS]))
+        parts = Parts.from_columns(*parts.parts_columns(columns))
+    if not network_per_part:
+        return select(parts, b, by=by, top=top, strict=strict, misses=misses)
+    from picker.design.netparts import per_part
+
+    every = parts if isinstance(parts, Parts) else Parts(parts)
+    assert b.network is not None
+    nets = per_part(req, every.assuming(req.assume)[0], b.network)
+    return select(every, b, by=by, top=top, strict=strict, misses=misses, networks=nets)
 
 
 @dataclass(frozen=True)

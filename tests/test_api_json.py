@@ -75,6 +75,8 @@ def test_every_command_json_equals_the_api(stage: dict[str, str], demo_db: str,
     _same(run("spec", *args, "--json").stdout, api.spec(req).to_json())
     _same(run("pick", *args, "--json", "--list", "all", "--db", demo_db).stdout,
           api.pick(req, store).to_json())
+    _same(run("pick", *args, "--json", "--list", "all", "--network-per-part", "--db",
+              demo_db).stdout, api.pick(req, store, network_per_part=True).to_json())
     _same(run("why", PART, *args, "--json", "--db", demo_db).stdout,
           api.why(req, PART, store).to_json())
     if "network" not in stage:

@@ -385,6 +385,44 @@ class CheckTable:
                  for n, (st, need, has, m, note, fig) in cols.items()} for k in range(len(idx))]
 
 
+def joined(labels: Strings, pieces: list[tuple[npt.NDArray[np.intp], CheckTable]]) -> CheckTable:
+    """One table over ``labels`` from tables over disjoint groups of its rows (each piece:
+    the rows it covers, its table), e.g. parts checked each with its own network.
+
+    Checks keep the report order of their first appearance; a check a group's stage does
+    not run reads as not applying there (margin inf, need and has unknown)."""
+    n = len(labels)
+    names: list[str] = []
+    for _, t in pieces:
+        names += [k for k in t.results if k not in names]
+    out: dict[str, CheckResult] = {}
+    for name in names:
+        first = next(t.results[name] for _, t in pieces if name in t.results)
+        need, has = np.full(n, np.nan), np.full(n, np.nan)
+        margin = np.full(n, np.inf)
+        sense_w: list[str] = []
+        note_w: list[str] = [""]
+        sense_c, note_c = np.zeros(n, np.int8), np.zeros(n, np.int8)
+        figs: dict[str, Array] = {}
+        for rows, t in pieces:
+            r = t.results.get(name)
+            if r is None:
+                continue
+            need[rows], has[rows], margin[rows] = r.need, r.has, r.margin
+            for words, coded, codes in ((sense_w, r.sense, sense_c), (note_w, r.note, note_c)):
+                for w in coded.words:
+                    if w not in words:
+                        words.append(w)
+                remap = np.array([words.index(w) for w in coded.words], np.int8)
+                codes[rows] = remap[np.asarray(coded.codes)]
+            for f, v in r.figures.items():
+                figs.setdefault(f, np.full(n, np.nan))[rows] = v
+        out[name] = CheckResult(name, first.kind, Coded(sense_c, tuple(sense_w or [">="])),
+                                need, has, margin, Coded(note_c, tuple(note_w)), figs)
+    ranked = frozenset().union(*[t.ranked for _, t in pieces]) if pieces else frozenset()
+    return CheckTable(labels, out, ranked)
+
+
 __all__ = ["ASSUMED", "STATUS_WORDS", "Array", "CheckResult", "CheckTable", "Coded", "Parts", "Status",
-           "at_least", "at_most", "merged", "result", "status_codes", "unknown_unless_failing",
+           "at_least", "at_most", "joined", "merged", "result", "status_codes", "unknown_unless_failing",
            "worse"]

@@ -62,6 +62,10 @@ def spec(stage: dict[str, Any], explain: bool, as_json: bool, save: str | None,
 @click.option("--list", "listed", metavar="N|all",
               help="how many accepted (best first), rejected and unverified parts (closest "
               "first) to write out (default 20; with --json all, unless given)")
+@click.option("--network-per-part", "per_part", is_flag=True,
+              help="design the resistor network for each part (its output, bias and noise "
+              "currents set the limits) and check each part with its own; default: one "
+              "shared network")
 @click.option("--json", "as_json", is_flag=True, help="JSON on stdout (SI base units)")
 @click.option("--reserve", is_flag=True,
               help="take the top accepted part for --for PROJECT (asks first)")
@@ -70,7 +74,7 @@ def spec(stage: dict[str, Any], explain: bool, as_json: bool, save: str | None,
 @save_option
 @db_option
 def pick(stage: dict[str, Any], by: str, top: int | None, strict: bool, misses: int | None,
-         listed: str | None, as_json: bool, reserve: bool, project: str | None, yes: bool,
+         listed: str | None, per_part: bool, as_json: bool, reserve: bool, project: str | None, yes: bool,
          save: str | None, db: str | None) -> None:
     """Check every part in stock against a stage; best first, rejections explained.
 
@@ -90,7 +94,7 @@ def pick(stage: dict[str, Any], by: str, top: int | None, strict: bool, misses: 
     req = build_requirement(stage)
     store = open_store(db)
     sel = api.pick(req, store, by=by, top=top, strict=strict,  # type: ignore[arg-type]
-                   misses=misses)
+                   misses=misses, network_per_part=per_part)
     if as_json:
         import sys
 

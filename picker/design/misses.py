@@ -123,9 +123,9 @@ def nearest_misses(sel, count: int = 3, looked_at: int = 10) -> list[NearMiss]: 
     The ``looked_at`` closest parts are searched; those one move can rescue come first
     (closest first), then the others, ``count`` in all.
     """
-    req = sel.requirement
     found: list[NearMiss] = []
     for entry in sel.rejected[:looked_at]:
+        req = sel.requirement_for(entry.row)  # with the part's own network, if it has one
         one = sel.parts.take(np.array([entry.row]))
         moves = []
         for axis, old, kind, far, make in _axes(req):

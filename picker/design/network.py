@@ -479,8 +479,10 @@ def with_designed_network(req: Requirement, part: Mapping[str, Any] | nm.PartDat
     prediction use instead of an ideal ratio."""
     if req.network is not None:
         return req
-    net = design_network(req, part, series=series)
-    return req.with_changes(network=dict(net.network))
+    pd = part if isinstance(part, nm.PartData) else nm.PartData.from_row(part)
+    # the values design_network chooses, without its tolerance analysis (Monte Carlo)
+    _, net, _, _ = _choose(req, Context(req, pd), series)
+    return req.with_changes(network=dict(net), network_designed=True)
 
 
 __all__ = ["COMP_MIN_IMPROVEMENT", "Network", "TIE", "design_network", "exact_gain",

@@ -20,16 +20,22 @@ than its checks.
 
 from __future__ import annotations
 
-from collections.abc import Iterator, Sequence
+from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass, field
-from typing import Any, Literal
+from typing import TYPE_CHECKING, Any, Literal, TypeVar
 
 import numpy as np
 
 from picker.checks import CheckTable, Parts, run_checks
+from picker.checks.core import joined
 from picker.design.ordering import Entries, Rows, label_rank, order_rows
 from picker.design.requirement import Requirement
 from picker.design.spec import Spec, minimum_specs
+
+if TYPE_CHECKING:
+    from picker.design.netparts import PartNetworks
+
+T = TypeVar("T")
 
 By = Literal["margin", "price", "stock"]
 BY: tuple[By, ...] = ("margin", "price", "stock")
@@ -61,6 +67,35 @@ class Selection:
     nearest: list[Any] = field(default_factory=list)  # picker.design.misses.NearMiss
     accepted_total: int = 0  # accepted before --top
     assumed: dict[str, np.ndarray] = field(default_factory=dict)  # field -> rows filled in
+    # with a network designed for each part: each part's network and the stage (Spec)
+    # of each distinct network, in the order of ``networks.networks``
+    networks: PartNetworks | None = None
+    specs: tuple[Spec, ...] = ()
+
+    def spec_for(self, row: int) -> Spec:
+        """The stage part ``row`` was checked in (its own network, or the shared one)."""
+        if self.networks is None:
+            return self.spec
+        return self.specs[int(self.networks.group[row])]
+
+    def requirement_for(self, row: int) -> Requirement:
+        return self.spec_for(row).requirement
+
+    def _by_spec(self, rows: Sequence[int], compute: Callable[[Parts, Spec], Sequence[T]]
+                 ) -> list[T]:
+        """``compute(parts of rows, spec)`` with each row in its own stage, in row order
+        (one call per distinct network among ``rows``, not one per part)."""
+        idx = np.asarray(rows, dtype=np.intp)
+        if self.networks is None:
+            return list(compute(self.parts.take(idx), self.spec))
+        out: list[Any] = [None] * len(idx)
+        groups = self.networks.group[idx]
+        for g in np.unique(groups).tolist():
+            where = np.flatnonzero(groups == g)
+            for k, value in zip(where.tolist(), compute(self.parts.take(idx[where]),
+                                                         self.specs[g]), strict=True):
+                out[k] = value
+        return out
 
     def assumed_for(self, row: int) -> dict[str, float]:
         """The values assumed for one row (field -> SI value), by the user's --assume."""
@@ -85,8 +120,8 @@ class Selection:
             from picker.checks.filters import phase_deg as filter_phase
 
             phase_deg = filter_phase  # noqa: F811
-        ph = phase_deg(self.parts.take(np.asarray(rows, dtype=np.intp)), self.spec)
-        return [None if not np.isfinite(x) else float(x) for x in ph.tolist()]
+        ph = self._by_spec(rows, lambda p, s: phase_deg(p, s).tolist())
+        return [None if not np.isfinite(x) else float(x) for x in ph]
 
     @property
     def shows_cmrr(self) -> bool:
@@ -100,7 +135,7 @@ class Selection:
 
         if not len(rows):
             return []
-        return stage_db(self.parts.take(np.asarray(rows, dtype=np.intp)), self.spec)
+        return self._by_spec(rows, stage_db)
 
     def stability(self, rows: Sequence[int]) -> list[tuple[float | None, float | None]]:
         """(phase margin in degrees, closed-loop peaking in dB) of each row in the stage
@@ -109,9 +144,12 @@ class Selection:
 
         if not len(rows):
             return []
-        mg = stage_margins(self.parts.take(np.asarray(rows, dtype=np.intp)), self.spec.stage)
+        def margins(parts: Parts, spec: Spec) -> list[tuple[float, float]]:
+            mg = stage_margins(parts, spec.stage)
+            return list(zip(mg.pm_deg.tolist(), mg.peaking_db.tolist(), strict=True))
+
         return [(None if not np.isfinite(p) else float(p), None if not np.isfinite(k) else float(k))
-                for p, k in zip(mg.pm_deg.tolist(), mg.peaking_db.tolist(), strict=True)]
+                for p, k in self._by_spec(rows, margins)]
 
     def stability_fixes(self, rows: Sequence[int]) -> list[str | None]:
         """For each row failing on its phase margin, the fix as one sentence (None: no
@@ -120,7 +158,7 @@ class Selection:
 
         if not len(rows):
             return []
-        found = fixes(self.parts.take(np.asarray(rows, dtype=np.intp)), self.spec)
+        found = self._by_spec(rows, fixes)
         return [None if f is None else f.sentence() for f in found]
 
     def to_json(self, listed: int | None = None) -> dict[str, Any]:
@@ -159,6 +197,8 @@ class Selection:
                         item["cmrr_db"] = cm
                     if self.assumed:
                         item["assumed"] = self.assumed_for(e.row)
+                    if self.networks is not None:
+                        item["network"] = self.networks.record(e.row)
                     item["checks"] = checks
                     yield item
 
@@ -192,11 +232,14 @@ def select(
     top: int | None = None,
     strict: bool = False,
     misses: int | None = None,
+    networks: PartNetworks | None = None,
 ) -> Selection:
     """Check every part of ``parts_df`` against ``req`` and sort them out (see above).
 
     ``misses``: how many of the closest rejected parts get their nearest misses; None
-    (the default) gives 3 when nothing is accepted and none otherwise."""
+    (the default) gives 3 when nothing is accepted and none otherwise. ``networks``:
+    each part's own network (picker.design.netparts); each part is then checked in the
+    stage with its network (``req`` with the shared one gives the spec shown)."""
     from picker.errors import BadValue
 
     if by not in BY:
@@ -206,7 +249,18 @@ def select(
     spec = minimum_specs(req)
     parts = parts_df if isinstance(parts_df, Parts) else Parts(parts_df)
     parts, assumed = parts.assuming(req.assume)
-    table = run_checks(parts, spec)
+    specs: tuple[Spec, ...] = ()
+    if networks is None:
+        table = run_checks(parts, spec)
+    else:
+        specs = tuple(minimum_specs(req.with_changes(network=dict(net)))
+                      for net in networks.networks)
+        pieces = []
+        for g, s in enumerate(specs):  # one vectorised run per distinct network
+            rows = np.flatnonzero(networks.group == g)
+            if len(rows):
+                pieces.append((rows, run_checks(parts.take(rows), s)))
+        table = joined(parts.labels, pieces)
     fail, unknown = table.verdicts()
     margin = table.rank_margin()
     rank = parts.memo("label_rank", lambda: label_rank(parts.labels))
@@ -229,7 +283,7 @@ def select(
     unverified = ordered(np.zeros(len(parts), dtype=bool) if strict else unknown & ~fail,
                          -margin)
     sel = Selection(spec, table, parts, by, strict, accepted, rejected, unverified,
-                    accepted_total=total, assumed=assumed)
+                    accepted_total=total, assumed=assumed, networks=networks, specs=specs)
     wanted = (3 if not accepted else 0) if misses is None else misses
     if rejected and wanted > 0:
         from picker.design.misses import nearest_misses

@@ -106,6 +106,9 @@ class Requirement:
     # designer's default max(10 kΩ, 10 x the source) (picker.design.netlimits)
     zin_ohm: float | None = None
     network: Mapping[str, float] | None = field(default=None, hash=False)
+    # the network was designed by picker (not given): advice that changes the tolerance
+    # designs it again, as a rerun would (picker.design.spec.tolerance_that_fits)
+    network_designed: bool = False
     # part values to take where a part leaves them blank (field -> SI value), by the
     # user's explicit choice; every output marks them as assumed
     assume: Mapping[str, float] = field(default_factory=dict, hash=False)

@@ -230,13 +230,28 @@ def _split(req: Requirement, st: Stage) -> tuple[Budget, float | None, float | N
 
 def tolerance_that_fits(req: Requirement, st: Stage) -> float | None:
     """The largest standard resistor tolerance that leaves the op-amp at least half of
-    the gain budget (None when even the tightest class does not)."""
+    the gain budget (None when even the tightest class does not).
+
+    A network picker designed is designed again with each class tried (the designer
+    counts gain error down to a fifth of the tolerance, so finer resistors may bring
+    other values), exactly as a rerun with ``--tolerance`` would build the stage."""
+    from picker.design.network import with_designed_network  # here: it imports this one
     from picker.design.tolerance import STANDARD_TOLERANCES
+    from picker.errors import BadRequirement
 
     for t in STANDARD_TOLERANCES:
         if t > req.tolerance:
             continue
-        b, *_ = _split(req.with_changes(tolerance=t), st)
+        moved = req.with_changes(tolerance=t)
+        st_t = st
+        if req.network_designed:
+            try:
+                moved = with_designed_network(moved.with_changes(network=None,
+                                                                 network_designed=False))
+            except BadRequirement:  # no network at this class: the advice cannot be it
+                continue
+            st_t = stage(moved)
+        b, *_ = _split(moved, st_t)
         if b.opamp >= b.allowed / 2:
             return t
     return None

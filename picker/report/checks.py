@@ -18,6 +18,7 @@ if TYPE_CHECKING:
     from picker.api import PartReport
     from picker.checks import CheckResult, CheckTable, Parts
     from picker.design.misses import Move
+    from picker.design.netparts import PartNetworks
     from picker.design.rank import Selection
     from picker.design.requirement import Requirement
     from picker.design.spec import Spec
@@ -190,6 +191,12 @@ def pick_text(sel: Selection, max_listed: int | None = None) -> str:
     lines = [f"Stage: {stage_line(sel.requirement)}", *cautions_block(sel.cautions), ""]
     order = {"margin": "smallest margin, largest first", "price": "price, cheapest first",
              "stock": "channels on hand, most first"}[sel.by]
+    nets = sel.networks
+
+    def own(row: int) -> str:  # the part's network, marked when it is the shared one
+        assert nets is not None
+        return nets.describe(row) + ("" if nets.own[row] else " (shared)")
+
     if sel.accepted:
         rows = []
         listed = list(sel.accepted)[:max_listed]
@@ -201,7 +208,8 @@ def pick_text(sel: Selection, max_listed: int | None = None) -> str:
                          t.limiting(e.row), fmt(ph, "angle"),
                          *([] if cmrr is None else [fmt(cmrr[k - 1], "decibel", 3)]),
                          "-" if math.isnan(price) else f"{price:.2f}",
-                         _count(parts["qty"][e.row]), _count(parts["channels"][e.row])])
+                         _count(parts["qty"][e.row]), _count(parts["channels"][e.row]),
+                         *([] if nets is None else [own(e.row)])])
         shown = (f"{len(listed)}" if len(listed) == sel.accepted_total
                  else f"best {len(listed)} of {sel.accepted_total}")
         lines.append(f"Accepted ({shown}), by {order}:")
@@ -210,7 +218,9 @@ def pick_text(sel: Selection, max_listed: int | None = None) -> str:
         lines.append(tabulate(rows, headers=["#", "part", "margin", "limited by", "phase at f",
                                              *(["CMRR"] if cmrr is not None else []),
                                              "price",
-                                             "qty", "ch"], disable_numparse=True))
+                                             "qty", "ch",
+                                             *([] if nets is None else ["network"])],
+                                    disable_numparse=True))
         for part, a in marks:
             lines.append(f"  {part}: assumed " + ", ".join(
                 f"{k} = {_field_value(k, v)}" for k, v in a.items()) + " (blank in the stockroom)")
@@ -222,7 +232,7 @@ def pick_text(sel: Selection, max_listed: int | None = None) -> str:
         lines += ["", f"Unverified ({len(sel.unverified)}): nothing fails, but some checks "
                   "could not be made (--strict rejects these):"]
         for e in sel.unverified[:max_listed]:
-            lines.append(f"  {e.part}")
+            lines.append(f"  {e.part}" + ("" if nets is None else f"  [network {own(e.row)}]"))
             lines += [f"    {limit_line(t.results[n], e.row, parts, needed[n])}" for n in e.unknown]
         lines += _more(len(sel.unverified), max_listed, "unverified")
     if sel.rejected:
@@ -232,7 +242,7 @@ def pick_text(sel: Selection, max_listed: int | None = None) -> str:
         unstable = [e.row for e in shown_rejected if "stability" in e.fails]
         fix = dict(zip(unstable, sel.stability_fixes(unstable), strict=True))
         for e in shown_rejected:
-            lines.append(f"  {e.part}")
+            lines.append(f"  {e.part}" + ("" if nets is None else f"  [network {own(e.row)}]"))
             for n in e.fails:
                 lines.append(f"    {limit_line(t.results[n], e.row, parts, needed[n])}")
                 if n == "stability" and fix.get(e.row):
@@ -245,7 +255,23 @@ def pick_text(sel: Selection, max_listed: int | None = None) -> str:
             lines.append(f"  {n.part} (fails {', '.join(n.fails)}): "
                          + "; ".join(_move(m) for m in n.moves))
     lines += ["", *[f"note: {n}" for n in sel.spec.notes]]
+    if nets is not None:
+        lines.append(_per_part_note(nets))
     return "\n".join(lines)
+
+
+def _per_part_note(nets: PartNetworks) -> str:
+    """The closing note of ``pick --network-per-part``."""
+    if not nets.designed:
+        return ("note: --network-per-part: the stage's network is given (or it has none to "
+                "design); every part is checked with it")
+    shared = ", ".join(f"{k.capitalize()} {fmt(v, 'resistance', 4)}"
+                       for k, v in nets.networks[0].items() if 0 < v < math.inf)
+    kept = int((~nets.own).sum())
+    return (f"note: --network-per-part: each part is checked with the network designed for "
+            f"it ({len(nets.networks)} distinct); the shared network is {shared}"
+            + (f"; {kept} part(s) marked (shared) keep it: no standard pair keeps their limits"
+               if kept else ""))
 
 
 def _more(total: int, shown: int | None, what: str) -> list[str]:
