@@ -70,6 +70,10 @@ def built(req: Requirement, series: SeriesName = DEFAULT_SERIES) -> Requirement:
         from picker.design.filternet import with_filter_network
 
         return with_filter_network(req, series)
+    if req.topology == "level-shift":  # picker.design.levelnet: the ranges set it
+        from picker.design.levelnet import with_level_network
+
+        return with_level_network(req, series)
     return with_designed_network(req, series=series)
 
 
@@ -264,6 +268,10 @@ def design_network(req: Requirement, part: Mapping[str, Any] | None = None, *,
         from picker.design.filternet import design_filter
 
         return design_filter(req, series)
+    if req.topology == "level-shift":  # picker.design.levelnet.LevelNetwork
+        from picker.design.levelnet import design_levels
+
+        return design_levels(req, series)
     full = req.network is not None or (req.rf_pinned and req.rg_ohm is not None) or (
         req.topology == "follower" and req.rf_pinned)
     if check and not full and kind(req.topology).pair_names is not None:

@@ -19,7 +19,8 @@ from picker.cli.params import QuantityParam, RailsParam
 F = TypeVar("F", bound=Callable[..., Any])
 
 TOPOLOGY_CHOICE = click.Choice(["inverting", "non-inverting", "follower", "difference",
-                                "vcvs-lowpass", "vcvs-highpass", "mfb-lowpass", "mfb-bandpass"])
+                                "vcvs-lowpass", "vcvs-highpass", "mfb-lowpass", "mfb-bandpass",
+                                "level-shift"])
 
 # (parameter name, option, click type, help); requirement keys are the option names
 _OPTIONS: tuple[tuple[str, str, Any, str], ...] = (
@@ -87,6 +88,14 @@ _OPTIONS: tuple[tuple[str, str, Any, str], ...] = (
      "filter: capacitor series (default E12)"),
     ("response_error", "--response-error", QuantityParam("ratio", positive=True),
      "filter: how far the op-amp may move f0, Q and gain from the network's (default 2%)"),
+    ("vin_range", "--vin-range", str,
+     "level-shift: the input range low..high, V from ground, e.g. 0..80mV (instead of "
+     "--vin and --ref)"),
+    ("vout_range", "--vout-range", str,
+     "level-shift: the output at the input range's low end..at its high end, e.g. "
+     "0.25..4.75V (falling: an inverting stage)"),
+    ("shift_source", "--shift-source", QuantityParam("voltage"),
+     "level-shift: the voltage the offset divider hangs from (default: the positive rail)"),
 )
 
 KEYS: tuple[str, ...] = tuple(name for name, *_ in _OPTIONS) + ("mains", "assume",

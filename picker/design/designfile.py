@@ -77,6 +77,12 @@ FIELDS: dict[str, tuple[str, str, str, str, str]] = {
     "cap-series": ("", "", "E12", '"E12"', "filter: capacitor series (E6, E12 or E24)"),
     "response-error": ("", "ratio", "2%", '"2%"',
                        "filter: how far the op-amp may move f0, Q and gain"),
+    "vin-range": ("", "V", "none", '"0..80mV"',
+                  "level-shift: the input range low..high, from ground (replaces vin, ref)"),
+    "vout-range": ("", "V", "none", '"0.25..4.75V"',
+                   "level-shift: the output at the input's low end..at its high end"),
+    "shift-source": (" V", "V", "the positive rail", '"2.5V"',
+                     "level-shift: the voltage the offset divider hangs from"),
 }
 
 #: The keys ``template()`` sets to an example stage (a stage needs them).

@@ -37,7 +37,7 @@ from picker.quantities import Brief, as_number, check_rails, parse, parse_amplit
 from picker.stages import kind, kinds
 
 Topology = Literal["inverting", "non-inverting", "follower", "difference", "vcvs-lowpass",
-                   "vcvs-highpass", "mfb-lowpass", "mfb-bandpass"]
+                   "vcvs-highpass", "mfb-lowpass", "mfb-bandpass", "level-shift"]
 TOPOLOGIES: tuple[Topology, ...] = get_args(Topology)
 
 #: Extra-low voltage limit for DC (IEC 61140 practice): beyond it, a caution.
@@ -85,7 +85,16 @@ KEYS: dict[str, str] = {
     "cap-tolerance": "cap_tolerance",
     "cap-series": "cap_series",
     "response-error": "response_error",
+    # level-shifting stages (picker.stages.levelshift)
+    "vin-range": "vin_range",
+    "vout-range": "vout_range",
+    "shift-source": "shift_source_v",
 }
+
+#: Keys of a level-shift stage; the ranges replace --vin/--vout, --gain and --ref.
+LEVEL_KEYS = ("vin-range", "vout-range", "shift-source")
+#: How closely a --gain given with the ranges must agree with theirs (relative).
+RANGE_GAIN_AGREEMENT = 1e-3
 
 #: Keys that describe a filter section; other stages refuse them.
 FILTER_KEYS = ("f0", "response", "passband-ripple", "bandwidth")
@@ -126,6 +135,9 @@ RANGES: dict[str, tuple[float, float, str]] = {
     "passband-ripple": (0.001, 6.0, "dB (0.001 dB to 6 dB)"),
     "cap-tolerance": (0.0, 0.2, "(0 to 20%)"),
     "response-error": (1e-6, 0.5, "(1 ppm to 50%)"),
+    "vin-range": (-1e3, 1e3, "V (-1 kV to 1 kV)"),
+    "vout-range": (-1e3, 1e3, "V (-1 kV to 1 kV)"),
+    "shift-source": (1e-3, 1e3, "V (1 mV to 1 kV)"),
 }
 
 
@@ -204,6 +216,12 @@ class Requirement:
     cap_tolerance: float = 0.05  # of the filter's capacitors (C0G/NP0 film and ceramic 5%)
     cap_series: str = "E12"  # the IEC 60063 series capacitors are chosen from
     response_error: float = 0.02  # how far the op-amp may move f0, Q and gain (ratio)
+    # level-shift stage: the input range (low, high) and the output levels at its two
+    # ends (at low, at high; a falling pair is an inverting stage), V from ground; the
+    # voltage the offset divider hangs from (None: the positive rail)
+    vin_range: tuple[float, float] | None = None
+    vout_range: tuple[float, float] | None = None
+    shift_source_v: float | None = None
 
     @property
     def is_filter(self) -> bool:
@@ -362,6 +380,7 @@ class Requirement:
                 raise BadRequirement(f"{label('vcm')}: {lo:g}..{hi:g} V is not a common-mode "
                                      "level a stage on these rails sees; check the units")
         self._validate_filter(label)
+        self._validate_levels(label)
         if not (self.cload_f >= 0 and math.isfinite(self.cload_f)):
             raise BadRequirement(f"{label('cload')}: the load capacitance must be >= 0 F")
         if not (0 < self.phase_margin_deg < 90):
@@ -430,6 +449,33 @@ class Requirement:
             raise BadRequirement(f"{label('gain')}: {self.gain:g} V/V is below 1, which a "
                                  f"{t} section (a non-inverting amplifier) cannot make; use "
                                  "mfb-lowpass, or a divider before the section")
+
+    def _validate_levels(self, label: Label) -> None:
+        """The level-shift keys: both ranges for a level-shift stage, none for others."""
+        if self.topology != "level-shift":
+            for name, v in (("vin-range", self.vin_range), ("vout-range", self.vout_range),
+                            ("shift-source", self.shift_source_v)):
+                if v is not None:
+                    raise BadRequirement(
+                        f"{label(name)}: describes a level-shift stage; use --topology "
+                        f"level-shift (or omit --topology), not {self.topology}")
+            return
+        for name, v in (("vin-range", self.vin_range), ("vout-range", self.vout_range)):
+            if v is None:
+                raise BadRequirement(f"{label(name)}: missing; a level-shift stage needs the "
+                                     "input range and the output levels at its ends, e.g. "
+                                     "--vin-range 0..80mV --vout-range 0.25..4.75V")
+        assert self.vin_range is not None and self.vout_range is not None
+        _range_errors(self.vin_range, self.vout_range, label)
+        c, d = self.vout_range
+        if min(c, d) < self.rail_neg or max(c, d) > self.rail_pos:
+            raise BadRequirement(
+                f"{label('vout-range')}: {c:g}..{d:g} V goes beyond the rails "
+                f"{self.rail_pos:+g}/{self.rail_neg:+g} V; narrow it or widen the rails")
+        if self.shift_source_v is not None and not (
+                self.shift_source_v > 0 and math.isfinite(self.shift_source_v)):
+            raise BadRequirement(f"{label('shift-source')}: the divider's source must be a "
+                                 "positive voltage, e.g. --shift-source 2.5V")
 
     # -- construction from user text ---------------------------------------------------
     @classmethod
@@ -724,6 +770,11 @@ def _build(values: Mapping[str, tuple[Any, str]]) -> Requirement:
                                                           allow_negative=False), name, raw)
         elif key in ("cap-tolerance", "response-error"):
             kw[KEYS[key]] = _ranged(key, parse(raw, "ratio", name), name, raw)
+        elif key in ("vin-range", "vout-range"):
+            kw[KEYS[key]] = _level_range(raw, name, key)
+        elif key == "shift-source":
+            kw["shift_source_v"] = None if _optional(raw) else _ranged(
+                key, parse(raw, "voltage", name, allow_zero=False), name, raw)
         elif key == "cap-series":
             from picker.design.series import parse_series
 
@@ -735,6 +786,8 @@ def _build(values: Mapping[str, tuple[Any, str]]) -> Requirement:
     if "rail_pos" not in kw:
         raise BadRequirement(f"{lab('rails')}: missing; give the supply rails, e.g. --rails ±12 "
                              "or --rails +5/0")
+    if "vin_range" in kw or "vout_range" in kw:
+        _from_ranges(kw, values, lab)
     if "topology" not in kw:
         raise BadRequirement(f"{lab('topology')}: missing; use one of " + ", ".join(kinds()))
     filt = kw["topology"] in ("vcvs-lowpass", "vcvs-highpass", "mfb-lowpass", "mfb-bandpass")
@@ -765,6 +818,71 @@ def _build(values: Mapping[str, tuple[Any, str]]) -> Requirement:
     if req.network is not None:
         _check_network(req.topology, req.network, lab("network"))
     return req
+
+
+def _range_errors(vin_range: tuple[float, float], vout_range: tuple[float, float],
+                  label: Label) -> None:
+    """BadRequirement for an inverted or empty input range or an empty output range."""
+    (a, b), (c, d) = vin_range, vout_range
+    if a > b:
+        raise BadRequirement(f"{label('vin-range')}: {a:g}..{b:g} V is inverted; write the "
+                             "input range low..high (a falling --vout-range makes an "
+                             "inverting stage)")
+    if a == b:
+        raise BadRequirement(f"{label('vin-range')}: {a:g}..{b:g} V is empty; give two "
+                             "different levels, low..high")
+    if c == d:
+        raise BadRequirement(f"{label('vout-range')}: {c:g}..{d:g} V is empty; give the "
+                             "output at the input's low end, then at its high end")
+
+
+def _level_range(value: Any, name: str, key: str) -> tuple[float, float]:
+    """Two levels as written, in order: ``0..80mV``, ``4.75..0.25V``, ``[0, 0.08]``, V."""
+    if isinstance(value, list | tuple):
+        if len(value) != 2:
+            raise BadValue(name, Brief(value), "needs two levels, e.g. [0, 0.08]")
+        a, b = (parse(v, "voltage", name) for v in value)
+    elif isinstance(value, str) and ".." in value:
+        left, right = value.split("..", 1)
+        unit = "".join(ch for ch in right if ch.isalpha())
+        left = left if any(ch.isalpha() for ch in left) else left + unit
+        a, b = parse(left, "voltage", name), parse(right, "voltage", name)
+    else:
+        raise BadValue(name, Brief(value), "is not a range; write two levels low..high, "
+                       "e.g. 0..80mV")
+    return _ranged(key, a, name, value), _ranged(key, b, name, value)
+
+
+def _from_ranges(kw: dict[str, Any], values: Mapping[str, tuple[Any, str]],
+                 lab: Label) -> None:
+    """A level-shift stage from its ranges: topology, gain magnitude, the output's middle
+    as the reference and half its span as the amplitude (picker.stages.levelshift)."""
+    both = [k for k in ("vin-range", "vout-range") if k in values]
+    if len(both) == 1:
+        other = "vout-range" if both[0] == "vin-range" else "vin-range"
+        raise BadRequirement(f"{lab(both[0])}: needs --{other} as well (the input range and "
+                             "the output levels at its two ends), e.g. --vin-range 0..80mV "
+                             "--vout-range 0.25..4.75V")
+    for key in ("vin", "vout", "ref"):
+        if key in values:
+            raise BadRequirement(f"{lab(key)}: the ranges set the levels and the amplitude; "
+                                 f"omit --{key} with --vin-range/--vout-range")
+    t = kw.setdefault("topology", "level-shift")
+    if t != "level-shift":
+        raise BadRequirement(f"{lab(both[0])}: describes a level-shift stage; use --topology "
+                             f"level-shift (or omit --topology), not {t}")
+    _range_errors(kw["vin_range"], kw["vout_range"], lab)
+    (a, b), (c, d) = kw["vin_range"], kw["vout_range"]
+    g = abs(d - c) / (b - a)
+    if "gain" in kw and not math.isclose(kw["gain"], g, rel_tol=RANGE_GAIN_AGREEMENT):
+        raise BadRequirement(
+            f"{lab('gain')}: {kw['gain']:.6g} V/V disagrees with the ranges' {g:.6g} V/V "
+            f"({abs(d - c):.6g} V out over {b - a:.6g} V in); omit --gain or correct it")
+    _ranged("gain", g, lab("vout-range"), f"{c:g}..{d:g} V",
+            "the gain the ranges make,")
+    kw["gain"] = g
+    kw["vout_pk"] = abs(d - c) / 2
+    kw["ref_v"] = (c + d) / 2
 
 
 def read_design(path: str | Path) -> dict[str, Any]:

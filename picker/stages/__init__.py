@@ -8,6 +8,7 @@ from picker.stages import (
     difference,
     follower,
     inverting,
+    levelshift,
     mfb_bandpass,
     mfb_lowpass,
     non_inverting,
@@ -25,6 +26,7 @@ register(vcvs_lowpass.KIND)
 register(vcvs_highpass.KIND)
 register(mfb_lowpass.KIND)
 register(mfb_bandpass.KIND)
+register(levelshift.KIND)
 
 __all__ = ["Stage", "StageType", "kind", "kinds", "parallel", "register", "stage",
            "unregister"]
