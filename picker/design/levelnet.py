@@ -73,17 +73,26 @@ class LevelNetwork:
         return max(abs(e.i_ref) for e in self.ends)
 
     def as_json(self) -> dict[str, Any]:
+        """The network as JSON (SI units; an open leg or no load is null)."""
         return {
             "form": self.form.name, "form_text": self.form.text, "series": self.series,
-            "network_ohm": self.network, "exact_ohm": self.exact,
+            "network_ohm": _finite(self.network), "exact_ohm": _finite(self.exact),
             "source_v": self.source_v, "gain": self.gain, "offset_v": self.offset_v,
             "gain_made": self.gain_made, "offset_made_v": self.offset_made_v,
             "gain_error": self.gain_error, "offset_error_v": self.offset_error_v,
-            "thevenin_v": self.thevenin_v, "thevenin_ohm": self.thevenin_ohm,
-            "ref_current_a": self.ref_current_a, "load_ohm": self.load_ohm,
+            "thevenin_v": self.thevenin_v, "thevenin_ohm": _none_if_inf(self.thevenin_ohm),
+            "ref_current_a": self.ref_current_a, "load_ohm": _none_if_inf(self.load_ohm),
             "ends": [{"vin_v": e.vin, "vp_v": e.vp, "vout_v": e.vout, "iout_a": e.i_out,
                       "iref_a": e.i_ref} for e in self.ends],
         }
+
+
+def _none_if_inf(v: float) -> float | None:
+    return None if math.isinf(v) else v
+
+
+def _finite(net: dict[str, float]) -> dict[str, float | None]:
+    return {k: _none_if_inf(v) for k, v in net.items()}
 
 
 def _neighbours(value: float, values: np.ndarray) -> list[float]:

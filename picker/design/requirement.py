@@ -873,6 +873,10 @@ def _from_ranges(kw: dict[str, Any], values: Mapping[str, tuple[Any, str]],
                              f"level-shift (or omit --topology), not {t}")
     _range_errors(kw["vin_range"], kw["vout_range"], lab)
     (a, b), (c, d) = kw["vin_range"], kw["vout_range"]
+    if min(c, d) < kw["rail_neg"] or max(c, d) > kw["rail_pos"]:
+        raise BadRequirement(
+            f"{lab('vout-range')}: {c:g}..{d:g} V goes beyond the rails "
+            f"{kw['rail_pos']:+g}/{kw['rail_neg']:+g} V; narrow it or widen the rails")
     g = abs(d - c) / (b - a)
     if "gain" in kw and not math.isclose(kw["gain"], g, rel_tol=RANGE_GAIN_AGREEMENT):
         raise BadRequirement(
