@@ -642,10 +642,17 @@ def netlist(req: Requirement, store: Any, part: str) -> str:
                            f"{f}=...) or give --assume {f}=VALUE")
         values[f] = v
     st = stage(b)
+    ref_v, vin_dc, fixed = b.ref, 0.0, {}
+    if b.vin_range is not None:  # a level-shift stage: the real levels, from ground
+        from picker.stages.levelshift import SOURCE_NODE, source_of
+
+        ref_v, vin_dc, fixed = 0.0, sum(b.vin_range) / 2, {SOURCE_NODE: source_of(b)}
+        notes.append(f"level shift: ref is ground; the input rides on {vin_dc!r} V, the "
+                     f"divider hangs from {SOURCE_NODE} = {source_of(b)!r} V")
     return deck(DeckInput(title=stage_line(b), part=part, values=values, circuit=st.circuit,
-                          noise_gain=st.noise_gain, ref_v=b.ref, rail_pos=b.rail_pos,
+                          noise_gain=st.noise_gain, ref_v=ref_v, rail_pos=b.rail_pos,
                           rail_neg=b.rail_neg, vin_pk=b.vin, freq_hz=b.freq_hz,
-                          notes=tuple(notes)))
+                          notes=tuple(notes), vin_dc_v=vin_dc, fixed=fixed))
 
 
 __all__ = ["MAX_SIDE_BY_SIDE", "PartReport", "SideBySide", "built", "candidates",

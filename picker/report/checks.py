@@ -53,7 +53,7 @@ def stage_line(req: Requirement) -> str:
     if req.vin_range is not None and req.vout_range is not None:  # a level-shift stage
         (a, b), (c, d) = req.vin_range, req.vout_range
         levels = (f"{_g(a)}..{_g(b)} V in -> {_g(c)}..{_g(d)} V out",
-                  "load to ground (0 V)")
+                  "levels from ground (0 V)")
     return (f"{req.topology}{gain}, {levels[0]} at {fmt(req.freq_hz, 'frequency')}; "
             f"rails {req.rail_pos:+g}/{req.rail_neg:+g} V, {levels[1]}; {load}{src}; "
             f"gain error {fmt(req.gain_error, 'ratio')} with {fmt(req.tolerance, 'ratio')} resistors "

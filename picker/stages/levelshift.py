@@ -66,6 +66,9 @@ LEFT_OUT = ("left out: the divider's source is taken as exact and quiet (its tol
             "of an ideal op-amp (its offset, bias currents and gain error are the checks' "
             "job); resistor tolerance moves the offset as well as the gain")
 
+#: The node the divider's upper leg hangs from in the stage's netlist.
+SOURCE_NODE = "vs"
+
 FormName = Literal["sum+", "leg", "div+", "sum-"]
 
 
@@ -320,7 +323,8 @@ class LevelShift(StageType):
         return kp, zp, kg, (math.inf if yn == 0 else 1.0 / yn), res["rf"]
 
     def netlist(self, res: Mapping[str, float], rs: float, load: float) -> Netlist:
-        """The signal circuit: input 1 V, the source Vs at ground, output node ``o``."""
+        """The signal circuit: input 1 V, output node ``o``; the divider's source is the
+        node ``vs``, held at the reference by a 0 V source (a deck holds it at Vs)."""
         form = form_in(res)
         inp, up, low = form.names
         d = form.divider_node
@@ -328,7 +332,8 @@ class LevelShift(StageType):
         e: list[Resistor | Source | OpAmp] = [
             Source("s", "0", 1.0), Resistor("s", "a", rs),
             Resistor("a", form.input_node, res[inp]),
-            Resistor(d, "0", res.get(up, inf)), Resistor(d, "0", res.get(low, inf)),
+            Source(SOURCE_NODE, "0", 0.0), Resistor(d, SOURCE_NODE, res.get(up, inf)),
+            Resistor(d, "0", res.get(low, inf)),
             Resistor("n", "0", res.get("rg", inf)), Resistor("n", "o", res["rf"]),
             Resistor("o", "0", load)]
         if form.name == "sum-":

@@ -249,3 +249,33 @@ def test_cli_net_json_levels_reach_the_output_range() -> None:
     lo, hi = got["ends"]
     assert abs(lo["vout_v"] - 0.25) <= abs(got["offset_error_v"]) + 1e-12
     assert got["form"] == "sum+"
+
+
+@needs_ngspice
+def test_netlist_deck_holds_the_real_levels(tmp_path: Path) -> None:
+    """`picker netlist` for a level-shift stage: ngspice's .op of the deck (input at the
+    middle of its range, the divider on its source, ref = ground) puts the output where
+    the ideal-op-amp levels say, within twice the loop's 1/T = noise gain/A0 (the demo
+    part's A0 1e5, its Ro 200 Ω behind that loop: ngspice .op)."""
+    db = str(tmp_path / "d.db")
+    runner = CliRunner()
+    assert runner.invoke(main, ["init", "--demo", "--db", db]).exit_code == 0
+    args = [*BASE, "--vin-range", "0..80mV", "--vout-range", "0.25..4.75V", "--load", "10k"]
+    run = runner.invoke(main, ["netlist", "cmos-rr-5v-a", "--db", db, *args],
+                        catch_exceptions=False)
+    assert run.exit_code == 0, run.output
+    body = "\n".join(x for x in run.stdout.splitlines()  # analyses out, .ends kept
+                     if x and x not in (".op", ".end")
+                     and not x.startswith((".ac", ".tran", ".tf")))
+    cir = tmp_path / "deck.cir"
+    cir.write_text(body + "\n.control\nset numdgt=12\nop\nprint v(out) v(p)\n.endc\n.end\n")
+    out = subprocess.run(["ngspice", "-b", str(cir)], capture_output=True, text=True,
+                         timeout=60).stdout
+    got = {k: float(re.search(re.escape(k) + r"\s*=\s*(\S+)", out).group(1))  # type: ignore[union-attr]
+           for k in ("v(out)", "v(p)")}
+    b = api.built(_req("0..80mV", "0.25..4.75V", "+5/0", 0.0, 10e3))
+    assert b.network is not None
+    want = dc_levels(dict(b.network), 0.0, 5.0, 0.04, 10e3)
+    noise_gain = float(api.spec(b).noise_gain)
+    assert_allclose(got["v(out)"], want.vout, rtol=2 * noise_gain / 1e5)  # ngspice .op
+    assert_allclose(got["v(p)"], want.vp, rtol=2 * noise_gain / 1e5)  # ngspice .op
