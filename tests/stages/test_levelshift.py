@@ -279,3 +279,70 @@ def test_netlist_deck_holds_the_real_levels(tmp_path: Path) -> None:
     noise_gain = float(api.spec(b).noise_gain)
     assert_allclose(got["v(out)"], want.vout, rtol=2 * noise_gain / 1e5)  # ngspice .op
     assert_allclose(got["v(p)"], want.vp, rtol=2 * noise_gain / 1e5)  # ngspice .op
+
+
+def test_design_file_keys_match_the_options(tmp_path: Path) -> None:
+    """A TOML design file with the same keys (TOML arrays or text) gives the same stage
+    as the options; the mapping through the two points (common practice, no source)."""
+    f = tmp_path / "bridge.toml"
+    f.write_text('vin_range = [0, 0.08]\nvout-range = "0.25..4.75V"\nrails = "+5/0"\n'
+                 'freq = "10Hz"\nshift-source = "5V"\n')
+    from_file = api.requirement(design=f)
+    from_options = api.requirement(vin_range="0..80mV", vout_range="0.25..4.75V",
+                                   rails="+5/0", freq="10Hz", shift_source="5V")
+    assert from_file.vin_range == from_options.vin_range == (0.0, 0.08)
+    assert from_file.vout_range == from_options.vout_range == (0.25, 4.75)
+    assert from_file.gain == pytest.approx(4.5 / 0.08, rel=1e-12)
+    assert from_file.ref == pytest.approx((0.25 + 4.75) / 2, rel=1e-12)
+    assert from_file.vout == pytest.approx(4.5 / 2, rel=1e-12)
+    assert from_file.topology == "level-shift"
+    bad = tmp_path / "bad.toml"
+    bad.write_text('vin-range = "0..80mV"\nvout-range = "0.25..4.75V"\nrails = "+5/0"\n'
+                   'freq = "10Hz"\ngain = 25\n')
+    run = CliRunner().invoke(main, ["spec", "--design", str(bad)])
+    assert run.exit_code == 2
+    assert run.stderr.strip().startswith("picker: error: bad.toml: gain: ")
+
+
+LEVEL_STAGE = ["--vin-range", "0..80mV", "--vout-range", "0.25..4.75V", "--freq", "10Hz",
+               "--rails", "+5/0", "--load", "10k", "--tolerance", "0.1%", "--offset-max",
+               "20mV", "--noise-max", "1mV", "--source", "350"]
+
+
+def test_every_check_explains_the_level_shift_stage() -> None:
+    """The registry's generic rule for a new stage type: every applicable check explains
+    its need in `spec --explain` and the printed arithmetic adds up (evaluated here)."""
+    from picker.checks import applicable
+    from picker.design.spec import minimum_specs
+    from tests.checks.test_registry import _need_and_numbers, _si
+
+    out = CliRunner().invoke(main, ["spec", *LEVEL_STAGE, "--explain"],
+                             catch_exceptions=False).stdout
+    req = api.requirement(**{k.lstrip("-").replace("-", "_"): v for k, v in
+                             zip(LEVEL_STAGE[::2], LEVEL_STAGE[1::2], strict=True)})
+    names = [c.name for c in applicable(minimum_specs(api.built(req)))]
+    assert len(names) >= 7
+    for name in names:
+        m = re.search(rf"\[{name}\]: (.+)\n    formula: (.+)\n    numbers: (.+)", out)
+        assert m, f"{name} missing from spec --explain"
+        computed, result = _need_and_numbers(m.group(3))
+        assert math.isclose(computed, result, rel_tol=2e-3, abs_tol=1e-12), (name, m.group(3))
+        if name != "stock":
+            assert math.isclose(_si(m.group(1).split(" (")[0]), result, rel_tol=6e-3), name
+
+
+def test_why_checks_common_mode_at_the_real_input_levels(tmp_path: Path) -> None:
+    """`why`: the common-mode check reports the non-inverting input's levels at the two
+    ends of the input range, the ideal-op-amp nodal levels (sympy-checked above) of the
+    network as built, not the output's middle level."""
+    db = str(tmp_path / "d.db")
+    CliRunner().invoke(main, ["init", "--demo", "--db", db], catch_exceptions=False)
+    out = CliRunner().invoke(main, ["why", "cmos-rr-5v-a", "--db", db, *LEVEL_STAGE],
+                             catch_exceptions=False).stdout
+    b = api.built(api.requirement(**{k.lstrip("-").replace("-", "_"): v for k, v in
+                                     zip(LEVEL_STAGE[::2], LEVEL_STAGE[1::2], strict=True)}))
+    assert b.network is not None
+    lo, hi = (dc_levels(dict(b.network), 350.0, 5.0, v, 10e3).vp for v in (0.0, 0.08))
+    m = re.search(r"inputs at (\S+) mV \.\. (\S+) mV", out)
+    assert m, out
+    assert_allclose([float(m.group(1)) / 1e3, float(m.group(2)) / 1e3], [lo, hi], rtol=1e-3)
