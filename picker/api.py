@@ -469,6 +469,9 @@ def sweep(req: Requirement, store: Any, vary: str, low: float, high: float, *,
     if vary not in VARIABLES:
         raise BadValue("--vary", vary, "is not a value a sweep can vary; use one of "
                        + ", ".join(VARIABLES))
+    if req.vin_range is not None and vary in ("gain", "vout"):  # a level-shift stage
+        raise BadValue("--vary", vary, "is set by --vin-range and --vout-range in a "
+                       "level-shift stage; vary freq, load, source, temp or cload")
     variable = VARIABLES[vary]
     spaced = variable.log if log is None else log
     if not 2 <= points <= 1000:

@@ -346,3 +346,14 @@ def test_why_checks_common_mode_at_the_real_input_levels(tmp_path: Path) -> None
     m = re.search(r"inputs at (\S+) mV \.\. (\S+) mV", out)
     assert m, out
     assert_allclose([float(m.group(1)) / 1e3, float(m.group(2)) / 1e3], [lo, hi], rtol=1e-3)
+
+
+@pytest.mark.parametrize("vary", ["gain=10..100", "vout=1..2V"])
+def test_sweep_refuses_what_the_ranges_set(vary: str, tmp_path: Path) -> None:
+    """`sweep --vary gain|vout` on a level-shift stage: one line, exit 2 (project rule)."""
+    db = str(tmp_path / "d.db")
+    CliRunner().invoke(main, ["init", "--demo", "--db", db], catch_exceptions=False)
+    run = CliRunner().invoke(main, ["sweep", "--db", db, *LEVEL_STAGE, "--vary", vary])
+    assert run.exit_code == 2, run.output
+    assert len(run.stderr.strip().splitlines()) == 1
+    assert "--vary" in run.stderr and "--vin-range" in run.stderr
