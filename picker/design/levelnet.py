@@ -4,8 +4,11 @@ The exact network (picker.stages.levelshift.ideal_levels) is computed for every
 feedback resistor ``rf`` of the series in 1 kΩ .. 1 MΩ (or the given ``--rf`` alone);
 each other resistor is snapped to its series neighbours below and above, and every
 combination is scored by the worse output-level error at the two ends of the input
-range (ideal op-amp, ``achieved``), as a share of the output span. The least error
-wins; among networks within 5 % of it, the one whose ``rf`` lies closest (log scale) to
+range (ideal op-amp, ``achieved``), as a share of the output span; each resistor may
+take the two series values on either side, so one snapped value can make up for
+another. In the ``sum+`` form, ``rg`` also runs over the series values that set a noise
+gain up to 1.5 times the least (G + Voffset/Vs), and ``rlp`` divides the surplus away: the
+E-series ratios rf/rg alone lie about 10 % apart. The least error wins; among networks within 5 % of it, the one whose ``rf`` lies closest (log scale) to
 ``max(10 kΩ, (N - 1)·1 kΩ)``, so the gain leg stays near or above 1 kΩ.
 """
 
@@ -28,6 +31,7 @@ from picker.stages.levelshift import (
     achieved,
     dc_levels,
     form_in,
+    form_of,
     ideal_levels,
     mapping,
     source_of,
@@ -36,6 +40,11 @@ from picker.stages.levelshift import (
 
 #: The window of the feedback resistor searched, Ω.
 RF_WINDOW = (1e3, 1e6)
+#: How many series values on each side of an exact value are tried.
+NEIGHBOURS = 2
+#: In the ``sum+`` form, noise gains up to this factor above the least are tried (rlp
+#: then divides the input and the source down to the gain and offset wanted).
+SUM_TRIM = 1.5
 #: Networks within this share of the least error count as ties.
 TIE = 1.05
 
@@ -96,12 +105,13 @@ def _finite(net: dict[str, float]) -> dict[str, float | None]:
 
 
 def _neighbours(value: float, values: np.ndarray) -> list[float]:
-    """The series values just below and above ``value`` (itself if a member; 0 and inf
-    stay as they are)."""
+    """The two series values below ``value`` and the two at or above it (0 and inf stay
+    as they are): a step further than the nearest lets one resistor make up for another."""
     if value == 0 or math.isinf(value):
         return [value]
     i = int(np.searchsorted(values, value))
-    out = [float(values[j]) for j in (i - 1, i) if 0 <= j < len(values)]
+    out = [float(values[j]) for j in range(i - NEIGHBOURS, i + NEIGHBOURS)
+           if 0 <= j < len(values)]
     return sorted(set(out))
 
 
@@ -129,19 +139,27 @@ def design_levels(req: Requirement, series: es.SeriesName = "E24") -> LevelNetwo
                                               if RF_WINDOW[0] <= v <= RF_WINDOW[1]]
     best: list[tuple[float, float, dict[str, float], dict[str, float]]] = []
     failure: BadRequirement | None = None
-    for rf in rfs:
+    trials: list[tuple[float, float | None]] = [(rf, None) for rf in rfs]
+    if form_of(g, off).name == "sum+":  # a series rg above the least noise gain, rlp trims
+        least = abs(g) + off / vs
+        trials += [(rf, float(rg)) for rf in rfs for rg in grid
+                   if least <= 1 + rf / rg <= least * SUM_TRIM]
+    for rf, rg in trials:
         try:
-            exact = ideal_levels(g, off, vs, rs, rf)
+            exact = ideal_levels(g, off, vs, rs, rf, rg)
         except BadRequirement as exc:
             failure = exc
             continue
         names = [k for k in exact if k != "rf"]
-        choices = [_neighbours(exact[k], grid) for k in names]
-        for combo in itertools.product(*choices):
-            net = {"rf": rf, **dict(zip(names, combo, strict=True))}
-            gm, om = (float(x) for x in achieved(net, rs, vs))
-            err = max(abs((gm - g) * v + (om - off)) for v in (lo, hi)) / span
-            best.append((err, rf, net, exact))
+        combos = np.array(list(itertools.product(*(
+            [exact[k]] if (k == "rg" and rg is not None) else _neighbours(exact[k], grid)
+            for k in names))), float)
+        gm, om = achieved({"rf": np.full(len(combos), rf),
+                           **{k: combos[:, j] for j, k in enumerate(names)}}, rs, vs)
+        err = np.maximum(abs((gm - g) * lo + (om - off)), abs((gm - g) * hi + (om - off))) / span
+        k = int(np.argmin(err))
+        best.append((float(err[k]), rf, {"rf": rf, **{n: float(combos[k, j])
+                                                       for j, n in enumerate(names)}}, exact))
     if not best:
         assert failure is not None
         raise failure

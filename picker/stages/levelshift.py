@@ -130,20 +130,27 @@ def source_of(req: Requirement) -> float:
     return req.rail_pos if req.shift_source_v is None else req.shift_source_v
 
 
-def ideal_levels(gain: float, offset: float, vs: float, rs: float, rf: float
-                 ) -> dict[str, float]:
+def ideal_levels(gain: float, offset: float, vs: float, rs: float, rf: float,
+                 rg: float | None = None) -> dict[str, float]:
     """Resistors of exact value for ``vout = gain·vin + offset`` from ``vs`` (V), Ω.
 
     ``rf`` sets the scale; the node the divider drives sees the Thévenin resistance of
-    the other input (bias currents balanced) where the form leaves that free. Raises
-    BadRequirement naming the fix where no form on a positive source makes the offset.
+    the other input (bias currents balanced) where the form leaves that free. In the
+    ``sum+`` form a given ``rg`` sets the noise gain N = 1 + rf/rg (at least
+    G + Voffset/Vs) and ``rlp`` takes up the rest. Raises BadRequirement naming the fix
+    where no form on a positive source makes the offset.
     """
     form = form_of(gain, offset)
     g = abs(gain)
     inf = math.inf
     if form.name == "sum+":
-        n = max(1.0, g + offset / vs)
-        rg = inf if n == 1.0 else rf / (n - 1.0)
+        least = max(1.0, g + offset / vs)
+        if rg is None:
+            rg = inf if least == 1.0 else rf / (least - 1.0)
+        n = 1.0 + rf / rg
+        if n < least * (1 - 1e-12):
+            raise BadRequirement(f"--rg: {rg:g} Ω makes a noise gain {n:.6g}, below the "
+                                 f"{least:.6g} the ranges need; lower it")
         a1, a2 = g / n, offset / (vs * n)  # input and source fractions at p
         zp = max(rf if math.isinf(rg) else rf * rg / (rf + rg), rs * a1 * 1.01)
         rest = 1.0 - a1 - a2
