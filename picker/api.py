@@ -525,6 +525,15 @@ def requirement_rows(req: Requirement) -> list[tuple[str, str]]:
         rows.append(("input common mode", f"{req.vcm[0]:g} .. {req.vcm[1]:g} V"))
     if req.cmrr_min_db is not None:
         rows.append(("CMRR min", f"{req.cmrr_min_db:g} dB"))
+    if req.vin_range is not None and req.vout_range is not None:  # a level-shift stage
+        from picker.stages.levelshift import source_of
+
+        rows = [(("output middle (reference)", v) if k == "reference" else (k, v))
+                for k, v in rows]
+        (a, b), (c, d) = req.vin_range, req.vout_range
+        rows += [("input range", f"{a:g} .. {b:g} V from ground"),
+                 ("output range", f"{c:g} .. {d:g} V (at the input's low .. high end)"),
+                 ("divider source", fmt(source_of(req), "voltage", 4))]
     if req.ripple is not None:
         rows.append(("rail ripple", f"{fmt(req.ripple[0], 'voltage', 4)} peak at "
                                     f"{fmt(req.ripple[1], 'frequency', 4)}"))
@@ -585,6 +594,10 @@ def note(req: Requirement, store: Any, part: str | None = None, *,
         for sid, make in (("network", lambda: design_network(b, row)),
                           ("waveform", lambda: waveform(b, store, part)),
                           ("response", lambda: response(b, store, part))):
+            if sid == "network" and b.vin_range is not None:  # not a gain-pair network
+                missing[sid] = ("A level-shift network: `picker net` with the same options "
+                                "shows its divider, its levels at both ends and its errors.")
+                continue
             try:
                 value = make()
             except PickerError as exc:

@@ -357,3 +357,18 @@ def test_sweep_refuses_what_the_ranges_set(vary: str, tmp_path: Path) -> None:
     assert run.exit_code == 2, run.output
     assert len(run.stderr.strip().splitlines()) == 1
     assert "--vary" in run.stderr and "--vin-range" in run.stderr
+
+
+def test_note_names_the_ranges(tmp_path: Path) -> None:
+    """`picker note` for a level-shift stage: the requirement lists both ranges and the
+    divider's source, and the note says where the network is shown (nothing left silent)."""
+    db = str(tmp_path / "d.db")
+    CliRunner().invoke(main, ["init", "--demo", "--db", db], catch_exceptions=False)
+    out = tmp_path / "note.md"
+    run = CliRunner().invoke(main, ["note", "--db", db, *LEVEL_STAGE, "--out", str(out)],
+                             catch_exceptions=False)
+    assert run.exit_code == 0, run.output
+    text = out.read_text(encoding="utf-8")
+    assert "| input range | 0 .. 0.08 V from ground |" in text
+    assert "| output range | 0.25 .. 4.75 V" in text
+    assert "`picker net` with the same options" in text
