@@ -74,6 +74,10 @@ def built(req: Requirement, series: SeriesName = DEFAULT_SERIES) -> Requirement:
         from picker.design.tianet import with_tia_network
 
         return with_tia_network(req, series)
+    if req.topology == "level-shift":  # picker.design.levelnet: the ranges set it
+        from picker.design.levelnet import with_level_network
+
+        return with_level_network(req, series)
     return with_designed_network(req, series=series)
 
 
@@ -291,6 +295,10 @@ def design_network(req: Requirement, part: Mapping[str, Any] | None = None, *,
         from picker.design.tianet import design_tia
 
         return design_tia(req, series)
+    if req.topology == "level-shift":  # picker.design.levelnet.LevelNetwork
+        from picker.design.levelnet import design_levels
+
+        return design_levels(req, series)
     full = req.network is not None or (req.rf_pinned and req.rg_ohm is not None) or (
         req.topology == "follower" and req.rf_pinned)
     if check and not full and kind(req.topology).pair_names is not None:
@@ -504,6 +512,9 @@ def sweep(req: Requirement, store: Any, vary: str, low: float, high: float, *,
     if vary not in VARIABLES:
         raise BadValue("--vary", vary, "is not a value a sweep can vary; use one of "
                        + ", ".join(VARIABLES))
+    if req.vin_range is not None and vary in ("gain", "vout"):  # a level-shift stage
+        raise BadValue("--vary", vary, "is set by --vin-range and --vout-range in a "
+                       "level-shift stage; vary freq, load, source, temp or cload")
     variable = VARIABLES[vary]
     spaced = variable.log if log is None else log
     if not 2 <= points <= 1000:
@@ -570,6 +581,15 @@ def requirement_rows(req: Requirement) -> list[tuple[str, str]]:
         rows.append(("input common mode", f"{req.vcm[0]:g} .. {req.vcm[1]:g} V"))
     if req.cmrr_min_db is not None:
         rows.append(("CMRR min", f"{req.cmrr_min_db:g} dB"))
+    if req.vin_range is not None and req.vout_range is not None:  # a level-shift stage
+        from picker.stages.levelshift import source_of
+
+        rows = [(("output middle (reference)", v) if k == "reference" else (k, v))
+                for k, v in rows]
+        (a, b), (c, d) = req.vin_range, req.vout_range
+        rows += [("input range", f"{a:g} .. {b:g} V from ground"),
+                 ("output range", f"{c:g} .. {d:g} V (at the input's low .. high end)"),
+                 ("divider source", fmt(source_of(req), "voltage", 4))]
     if req.ripple is not None:
         rows.append(("rail ripple", f"{fmt(req.ripple[0], 'voltage', 4)} peak at "
                                     f"{fmt(req.ripple[1], 'frequency', 4)}"))
@@ -636,6 +656,9 @@ def note(req: Requirement, store: Any, part: str | None = None, *,
                 missing[sid] = (f"The feedback pair: rf {fmt(b.network['rf'], 'resistance')}, "
                                 f"cf {fmt(b.network['cf'], 'capacitance')} (picker net shows "
                                 "its design).")
+            if sid == "network" and b.vin_range is not None:  # not a gain-pair network
+                missing[sid] = ("A level-shift network: `picker net` with the same options "
+                                "shows its divider, its levels at both ends and its errors.")
                 continue
             try:
                 value = make()
@@ -703,10 +726,17 @@ def netlist(req: Requirement, store: Any, part: str) -> str:
                            f"{f}=...) or give --assume {f}=VALUE")
         values[f] = v
     st = stage(b)
+    ref_v, vin_dc, fixed = b.ref, 0.0, {}
+    if b.vin_range is not None:  # a level-shift stage: the real levels, from ground
+        from picker.stages.levelshift import SOURCE_NODE, source_of
+
+        ref_v, vin_dc, fixed = 0.0, sum(b.vin_range) / 2, {SOURCE_NODE: source_of(b)}
+        notes.append(f"level shift: ref is ground; the input rides on {vin_dc!r} V, the "
+                     f"divider hangs from {SOURCE_NODE} = {source_of(b)!r} V")
     return deck(DeckInput(title=stage_line(b), part=part, values=values, circuit=st.circuit,
-                          noise_gain=st.noise_gain, ref_v=b.ref, rail_pos=b.rail_pos,
+                          noise_gain=st.noise_gain, ref_v=ref_v, rail_pos=b.rail_pos,
                           rail_neg=b.rail_neg, vin_pk=b.vin, freq_hz=b.freq_hz,
-                          notes=tuple(notes)))
+                          notes=tuple(notes), vin_dc_v=vin_dc, fixed=fixed))
 
 
 __all__ = ["MAX_SIDE_BY_SIDE", "PartReport", "SideBySide", "built", "candidates",

@@ -64,6 +64,10 @@ def net(stage: dict[str, Any], series: str, check: bool,
     from picker.report.tables import to_json
 
     req = build_requirement(stage)
+    if req.topology == "level-shift":
+        _level_net(req, series, part, as_json)
+        save_requirement(stage, save, db)
+        return
     if req.is_filter or req.is_tia:
         _filter_net(req, series, part, as_json)
         save_requirement(stage, save, db)
@@ -105,3 +109,22 @@ def _filter_net(req: Any, series: str, part: str | None, as_json: bool) -> None:
         click.echo(network.text(req.cautions))
         return
     click.echo(net_text(network, req.cautions))
+
+
+def _level_net(req: Any, series: str, part: str | None, as_json: bool) -> None:
+    """``picker net`` for a level-shift stage: the divider, its levels and its errors."""
+    from picker import api
+    from picker.errors import BadValue
+    from picker.report.levelshift import level_text
+    from picker.report.tables import to_json
+
+    if part is not None:
+        raise BadValue("--part", part, "applies to the gain-pair stages; for a level-shift "
+                       "stage, `picker why PART` checks the part at the real levels")
+    network = api.design_network(req, series=series)  # type: ignore[arg-type]
+    if as_json:
+        click.echo(to_json(network.as_json()))
+        for c in req.cautions:
+            click.echo(c, err=True)
+        return
+    click.echo(level_text(network, req.cautions))

@@ -70,6 +70,9 @@ RANGES: dict[str, tuple[float, float, str]] = {
     "zt": (1.0, 1e12, "Ω (1 Ω to 1 TΩ)"),
     "f3db": (1e-3, 1e9, "Hz (1 mHz to 1 GHz)"),
     "rise": (1e-12, 1e3, "s (1 ps to 1000 s)"),
+    "vin-range": (-1e3, 1e3, "V (-1 kV to 1 kV)"),
+    "vout-range": (-1e3, 1e3, "V (-1 kV to 1 kV)"),
+    "shift-source": (1e-3, 1e3, "V (1 mV to 1 kV)"),
 }
 
 #: The response shapes of a low- or high-pass section (trade terms).
@@ -382,6 +385,29 @@ def _tia_response(raw: Any, name: str) -> dict[str, Any]:
     return _choice("tia_response", tuple(RESPONSE_Q), "a response")(raw, name)
 
 
+def _level_range(value: Any, name: str, key: str) -> tuple[float, float]:
+    """Two levels as written, in order: ``0..80mV``, ``4.75..0.25V``, ``[0, 0.08]``, V."""
+    if isinstance(value, list | tuple):
+        if len(value) != 2:
+            raise BadValue(name, Brief(value), "needs two levels, e.g. [0, 0.08]")
+        a, b = (parse(v, "voltage", name) for v in value)
+    elif isinstance(value, str) and ".." in value:
+        left, right = value.split("..", 1)
+        unit = "".join(ch for ch in right if ch.isalpha())
+        left = left if any(ch.isalpha() for ch in left) else left + unit
+        a, b = parse(left, "voltage", name), parse(right, "voltage", name)
+    else:
+        raise BadValue(name, Brief(value), "is not a range; write two levels low..high, "
+                       "e.g. 0..80mV")
+    return ranged(key, a, name, value), ranged(key, b, name, value)
+
+
+def _range_of(key: str, field: str) -> Reader:
+    def read(raw: Any, name: str) -> dict[str, Any]:
+        return {field: _level_range(raw, name, key)}
+    return read
+
+
 _TOPOLOGIES: tuple[str, ...] = tuple(kinds())  # every registered stage type
 
 #: Every requirement key, in the order of --help and the design-file template.
@@ -544,6 +570,17 @@ KEYS: tuple[Key, ...] = (
         "transimpedance: response the feedback capacitor is designed for (butterworth, "
         "bessel, critical)", "butterworth", '"butterworth"', kind="choice",
         choices=("butterworth", "bessel", "critical")),
+    # level-shifting stages (picker.stages.levelshift)
+    Key("vin-range", "vin_range", _range_of("vin-range", "vin_range"),
+        "level-shift: the input range low..high, V from ground, e.g. 0..80mV (instead of vin "
+        "and ref)", "none", '"0..80mV"', words="V"),
+    Key("vout-range", "vout_range", _range_of("vout-range", "vout_range"),
+        "level-shift: the output at the input range's low end..at its high end, e.g. "
+        "0.25..4.75V (falling: an inverting stage)", "none", '"0.25..4.75V"', words="V"),
+    Key("shift-source", "shift_source_v", _quantity("shift-source", "shift_source_v",
+                                                    "voltage", positive=True, none=None),
+        "level-shift: the voltage the offset divider hangs from", "the positive rail",
+        '"2.5V"', kind="voltage", unit=" V", words="V"),
 )
 
 #: key name -> Key

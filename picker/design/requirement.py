@@ -38,7 +38,8 @@ from picker.errors import BadRequirement, BadValue
 from picker.stages import kind, kinds
 
 Topology = Literal["inverting", "non-inverting", "follower", "difference", "vcvs-lowpass",
-                   "vcvs-highpass", "mfb-lowpass", "mfb-bandpass", "transimpedance"]
+                   "vcvs-highpass", "mfb-lowpass", "mfb-bandpass", "transimpedance",
+                   "level-shift"]
 TOPOLOGIES: tuple[Topology, ...] = get_args(Topology)
 
 #: Extra-low voltage limit for DC (IEC 61140 practice): beyond it, a caution.
@@ -48,6 +49,11 @@ T_REF_C = 25.0
 
 # requirement key (as written, dashes) -> dataclass field (picker.design.keys)
 KEYS: dict[str, str] = {k.name: k.field for k in _keys.KEYS}
+
+#: Keys of a level-shift stage; the ranges replace --vin/--vout, --gain and --ref.
+LEVEL_KEYS = ("vin-range", "vout-range", "shift-source")
+#: How closely a --gain given with the ranges must agree with theirs (relative).
+RANGE_GAIN_AGREEMENT = 1e-3
 
 #: Keys that describe a filter section; other stages refuse them.
 FILTER_KEYS = ("f0", "response", "passband-ripple", "bandwidth")
@@ -179,6 +185,12 @@ class Requirement:
             a, b = (self.ref - i * self.zt_ohm for i in self.iin_a)
             return min(a, b), max(a, b)
         return self.ref - self.vout, self.ref + self.vout
+    # level-shift stage: the input range (low, high) and the output levels at its two
+    # ends (at low, at high; a falling pair is an inverting stage), V from ground; the
+    # voltage the offset divider hangs from (None: the positive rail)
+    vin_range: tuple[float, float] | None = None
+    vout_range: tuple[float, float] | None = None
+    shift_source_v: float | None = None
 
     @property
     def is_filter(self) -> bool:
@@ -346,6 +358,7 @@ class Requirement:
         self._validate_filter(label)
         self._validate_coupling(label)
         self._validate_tia(label)
+        self._validate_levels(label)
         if not (self.cload_f >= 0 and math.isfinite(self.cload_f)):
             raise BadRequirement(f"{label('cload')}: the load capacitance must be >= 0 F")
         if not (0 < self.phase_margin_deg < 90):
@@ -480,6 +493,32 @@ class Requirement:
                                  "signal to resolve")
         if not (self.cdet_f >= 0 and math.isfinite(self.cdet_f)):
             raise BadRequirement(f"{label('cdet')}: the sensor capacitance must be >= 0 F")
+    def _validate_levels(self, label: Label) -> None:
+        """The level-shift keys: both ranges for a level-shift stage, none for others."""
+        if self.topology != "level-shift":
+            for name, v in (("vin-range", self.vin_range), ("vout-range", self.vout_range),
+                            ("shift-source", self.shift_source_v)):
+                if v is not None:
+                    raise BadRequirement(
+                        f"{label(name)}: describes a level-shift stage; use --topology "
+                        f"level-shift (or omit --topology), not {self.topology}")
+            return
+        for name, v in (("vin-range", self.vin_range), ("vout-range", self.vout_range)):
+            if v is None:
+                raise BadRequirement(f"{label(name)}: missing; a level-shift stage needs the "
+                                     "input range and the output levels at its ends, e.g. "
+                                     "--vin-range 0..80mV --vout-range 0.25..4.75V")
+        assert self.vin_range is not None and self.vout_range is not None
+        _range_errors(self.vin_range, self.vout_range, label)
+        c, d = self.vout_range
+        if min(c, d) < self.rail_neg or max(c, d) > self.rail_pos:
+            raise BadRequirement(
+                f"{label('vout-range')}: {c:g}..{d:g} V goes beyond the rails "
+                f"{self.rail_pos:+g}/{self.rail_neg:+g} V; narrow it or widen the rails")
+        if self.shift_source_v is not None and not (
+                self.shift_source_v > 0 and math.isfinite(self.shift_source_v)):
+            raise BadRequirement(f"{label('shift-source')}: the divider's source must be a "
+                                 "positive voltage, e.g. --shift-source 2.5V")
 
     # -- construction from user text ---------------------------------------------------
     @classmethod
@@ -587,6 +626,8 @@ def _build(values: Mapping[str, tuple[Any, str]]) -> Requirement:
     if "rail_pos" not in kw:
         raise BadRequirement(f"{lab('rails')}: missing; give the supply rails, e.g. --rails ±12 "
                              "or --rails +5/0")
+    if "vin_range" in kw or "vout_range" in kw:
+        _from_ranges(kw, values, lab)
     if "topology" not in kw:
         raise BadRequirement(f"{lab('topology')}: missing; use one of " + ", ".join(kinds()))
     filt = kw["topology"] in ("vcvs-lowpass", "vcvs-highpass", "mfb-lowpass", "mfb-bandpass")
@@ -619,6 +660,58 @@ def _build(values: Mapping[str, tuple[Any, str]]) -> Requirement:
     if req.network is not None:
         _check_network(req.topology, req.network, lab("network"))
     return req
+
+
+def _range_errors(vin_range: tuple[float, float], vout_range: tuple[float, float],
+                  label: Label) -> None:
+    """BadRequirement for an inverted or empty input range or an empty output range."""
+    (a, b), (c, d) = vin_range, vout_range
+    if a > b:
+        raise BadRequirement(f"{label('vin-range')}: {a:g}..{b:g} V is inverted; write the "
+                             "input range low..high (a falling --vout-range makes an "
+                             "inverting stage)")
+    if a == b:
+        raise BadRequirement(f"{label('vin-range')}: {a:g}..{b:g} V is empty; give two "
+                             "different levels, low..high")
+    if c == d:
+        raise BadRequirement(f"{label('vout-range')}: {c:g}..{d:g} V is empty; give the "
+                             "output at the input's low end, then at its high end")
+
+
+def _from_ranges(kw: dict[str, Any], values: Mapping[str, tuple[Any, str]],
+                 lab: Label) -> None:
+    """A level-shift stage from its ranges: topology, gain magnitude, the output's middle
+    as the reference and half its span as the amplitude (picker.stages.levelshift)."""
+    both = [k for k in ("vin-range", "vout-range") if k in values]
+    if len(both) == 1:
+        other = "vout-range" if both[0] == "vin-range" else "vin-range"
+        raise BadRequirement(f"{lab(both[0])}: needs --{other} as well (the input range and "
+                             "the output levels at its two ends), e.g. --vin-range 0..80mV "
+                             "--vout-range 0.25..4.75V")
+    for key in ("vin", "vout", "ref"):
+        if key in values:
+            raise BadRequirement(f"{lab(key)}: the ranges set the levels and the amplitude; "
+                                 f"omit --{key} with --vin-range/--vout-range")
+    t = kw.setdefault("topology", "level-shift")
+    if t != "level-shift":
+        raise BadRequirement(f"{lab(both[0])}: describes a level-shift stage; use --topology "
+                             f"level-shift (or omit --topology), not {t}")
+    _range_errors(kw["vin_range"], kw["vout_range"], lab)
+    (a, b), (c, d) = kw["vin_range"], kw["vout_range"]
+    if min(c, d) < kw["rail_neg"] or max(c, d) > kw["rail_pos"]:
+        raise BadRequirement(
+            f"{lab('vout-range')}: {c:g}..{d:g} V goes beyond the rails "
+            f"{kw['rail_pos']:+g}/{kw['rail_neg']:+g} V; narrow it or widen the rails")
+    g = abs(d - c) / (b - a)
+    if "gain" in kw and not math.isclose(kw["gain"], g, rel_tol=RANGE_GAIN_AGREEMENT):
+        raise BadRequirement(
+            f"{lab('gain')}: {kw['gain']:.6g} V/V disagrees with the ranges' {g:.6g} V/V "
+            f"({abs(d - c):.6g} V out over {b - a:.6g} V in); omit --gain or correct it")
+    _keys.ranged("gain", g, lab("vout-range"), f"{c:g}..{d:g} V",
+            "the gain the ranges make,")
+    kw["gain"] = g
+    kw["vout_pk"] = abs(d - c) / 2
+    kw["ref_v"] = (c + d) / 2
 
 
 def read_design(path: str | Path) -> dict[str, Any]:

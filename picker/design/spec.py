@@ -315,6 +315,7 @@ def minimum_specs(req: Requirement) -> Spec:
     if not st.ideal_network:
         notes.append("network: " + ", ".join(f"{k} {fmt(v, 'resistance')}"
                                               for k, v in st.resistors.items()))
+    notes += kind(req.topology).notes(req, st)
     return Spec(req, st, st.gain, st.noise_gain, m, minimum, budget, notes)
 
 

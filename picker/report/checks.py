@@ -53,8 +53,13 @@ def stage_line(req: Requirement) -> str:
     src = "" if req.source_ohm == 0 else f", source {fmt(req.source_ohm, 'resistance')}"
     temp = (f"{_g(req.temp_min_c)} °C" if req.temp_min_c == req.temp_max_c
             else f"{_g(req.temp_min_c)}..{_g(req.temp_max_c)} °C")
-    return (f"{req.topology}{gain}, {_g(req.vout)} Vpk out at {fmt(req.freq_hz, 'frequency')}; "
-            f"rails {req.rail_pos:+g}/{req.rail_neg:+g} V, ref {_g(req.ref)} V; {load}{src}; "
+    levels = (f"{_g(req.vout)} Vpk out", f"ref {_g(req.ref)} V")
+    if req.vin_range is not None and req.vout_range is not None:  # a level-shift stage
+        (a, b), (c, d) = req.vin_range, req.vout_range
+        levels = (f"{_g(a)}..{_g(b)} V in -> {_g(c)}..{_g(d)} V out",
+                  "levels from ground (0 V)")
+    return (f"{req.topology}{gain}, {levels[0]} at {fmt(req.freq_hz, 'frequency')}; "
+            f"rails {req.rail_pos:+g}/{req.rail_neg:+g} V, {levels[1]}; {load}{src}; "
             f"gain error {fmt(req.gain_error, 'ratio')} with {fmt(req.tolerance, 'ratio')} resistors "
             f"({req.tolerance_rule}); {temp}; margin {req.margin:g}")
 

@@ -27,7 +27,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 from picker import __version__
 from picker.circuit.mna import Capacitor, Netlist, OpAmp, Resistor, Source
@@ -151,9 +151,13 @@ def _node(name: str) -> str:
     return {"0": "ref", "o": "out"}.get(name, name)
 
 
-def stage_lines(circuit: Netlist, subckt: str) -> list[str]:
+def stage_lines(circuit: Netlist, subckt: str, fixed: Mapping[str, float] | None = None
+                ) -> list[str]:
     """The stage's elements: picker's sources as controlled sources from ``in``, its
-    resistors (0 Ω: a 0 V source; ∞: left out), capacitors and the op-amp instance."""
+    resistors (0 Ω: a 0 V source; ∞: left out), capacitors and the op-amp instance.
+    ``fixed``: nodes that picker's signal circuit ties to the reference through a source
+    and the deck holds at a DC level instead (V from 0 V: a level-shift's divider source)."""
+    fixed = fixed or {}
     out: list[str] = []
     counts: dict[str, int] = {}
 
@@ -162,7 +166,9 @@ def stage_lines(circuit: Netlist, subckt: str) -> list[str]:
         return f"{prefix}{counts[prefix]}"
 
     for e in circuit.elements:
-        if isinstance(e, Source):
+        if isinstance(e, Source) and e.plus in fixed:
+            out.append(f"{name('Vfix')} {_node(e.plus)} 0 DC {n(fixed[e.plus])}")
+        elif isinstance(e, Source):
             out.append(f"{name('E')} {_node(e.plus)} {_node(e.minus)} in ref {n(e.volt)}")
         elif isinstance(e, Resistor):
             if math.isinf(e.ohm):
@@ -193,6 +199,8 @@ class DeckInput:
     vin_pk: float
     freq_hz: float
     notes: tuple[str, ...] = ()  # assumptions to state in the header
+    vin_dc_v: float = 0.0  # the DC level the input signal rides on, from ref
+    fixed: Mapping[str, float] = field(default_factory=dict)  # stage_lines' ``fixed``
 
 
 def deck(d: DeckInput) -> str:
@@ -212,8 +220,9 @@ def deck(d: DeckInput) -> str:
         f"Vref ref 0 DC {n(d.ref_v)}",
         f"Vpos vpos 0 DC {n(d.rail_pos)}",
         f"Vneg vneg 0 DC {n(d.rail_neg)}",
-        f"Vin in ref DC 0 AC 1 SIN(0 {n(d.vin_pk)} {n(d.freq_hz)})",
-        *stage_lines(d.circuit, subckt),
+        f"Vin in ref DC {n(d.vin_dc_v) if d.vin_dc_v else 0} AC 1 "
+        f"SIN({n(d.vin_dc_v) if d.vin_dc_v else 0} {n(d.vin_pk)} {n(d.freq_hz)})",
+        *stage_lines(d.circuit, subckt, d.fixed),
         *macromodel(subckt, d.values),
         ".options reltol=1e-6 abstol=1e-12 vntol=1e-9",
         ".op",

@@ -25,6 +25,13 @@ def stage_line(req: Requirement, freq_hz: float) -> str:
         from picker.report.checks import tia_line
 
         return tia_line(req)
+    if req.vin_range is not None and req.vout_range is not None:  # a level-shift stage
+        (a, b), (c, d) = req.vin_range, req.vout_range
+        return (f"{req.topology}, {a:g}..{b:g} V in -> {c:g}..{d:g} V out, a sine over the "
+                f"input range at {fmt(freq_hz, 'frequency')}, rails {req.rail_pos:+g}/"
+                f"{req.rail_neg:+g} V, load "
+                + ("none" if req.load_ohm is None else fmt(req.load_ohm, "resistance")
+                   + " (to the output's middle level in this prediction)"))
     return (f"{req.topology}, gain {req.gain:g} V/V, {fmt(req.vin, 'voltage')} peak sine at "
             f"{fmt(freq_hz, 'frequency')}, rails {req.rail_pos:+g}/{req.rail_neg:+g} V, "
             f"reference {fmt(req.ref, 'voltage')}, load "

@@ -8,6 +8,7 @@ from picker.stages import (
     difference,
     follower,
     inverting,
+    levelshift,
     mfb_bandpass,
     mfb_lowpass,
     non_inverting,
@@ -27,6 +28,7 @@ register(vcvs_highpass.KIND)
 register(mfb_lowpass.KIND)
 register(mfb_bandpass.KIND)
 register(transimpedance.KIND)
+register(levelshift.KIND)
 
 __all__ = ["Stage", "StageType", "kind", "kinds", "parallel", "register", "stage",
            "unregister"]

@@ -237,6 +237,11 @@ class StageType(ABC):
         fa, fb = self.pair_names
         return {fa: a, fb: b}
 
+    def notes(self, req: Requirement, st: Stage) -> list[str]:
+        """Notes the stage type adds to its minimum specifications (what it is, what its
+        model leaves out); none by default."""
+        return []
+
     def input_levels(self, req: Requirement, st: Stage) -> tuple[float, float]:
         """Lowest and highest level the op-amp's inputs reach, V: the non-inverting
         input follows ``ref ± |kp|·Vp,in`` (a stage type with its own common-mode input
