@@ -368,7 +368,9 @@ def waveform(req: Requirement, store: Any, part: str, freq_hz: float | None = No
 
 
 def step(req: Requirement, store: Any, part: str) -> Any:
-    """The response of a filter stage with one part (by label) to a step of ``--vin``.
+    """The response of a filter stage with one part (by label) to a step of ``--vin``, or
+    of a transimpedance stage to a step of the sensor current (low end to high end of
+    ``--iin``; picker.design.tiawave).
 
     Returns
     -------
@@ -376,13 +378,21 @@ def step(req: Requirement, store: Any, part: str) -> Any:
         ``summary()`` is ``picker wave PART --step --json`` (V, s; overshoot as a ratio).
         BadRequirement for a resistive stage; BadValue when the part lacks its GBW.
     """
-    from picker.design.filterwave import COLUMNS, step_response
     from picker.errors import BadRequirement
 
-    if not req.is_filter:
+    if req.is_tia:
+        from picker.design.tiawave import COLUMNS as TIA_COLUMNS
+        from picker.design.tiawave import current_step
+
+        out = current_step(built(req), part_frame(store, part, TIA_COLUMNS))
+    elif req.is_filter:
+        from picker.design.filterwave import COLUMNS, step_response
+
+        out = step_response(built(req), part_frame(store, part, COLUMNS))
+    else:
         raise BadRequirement("--step: applies to the filter stages (vcvs-lowpass, "
-                             "vcvs-highpass, mfb-lowpass, mfb-bandpass); omit it")
-    out = step_response(built(req), part_frame(store, part, COLUMNS))
+                             "vcvs-highpass, mfb-lowpass, mfb-bandpass) and the "
+                             "transimpedance stage; omit it")
     _need_known(bool(out.waves.known[0]), part, "gain-bandwidth product")
     return out
 

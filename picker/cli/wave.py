@@ -46,7 +46,8 @@ def _size(text: str | None, default: tuple[int, int]) -> tuple[int, int]:
 @click.option("--size", metavar="WxH", help="PNG size in pixels (default 1000x600; "
               "with --top 1200x900)")
 @click.option("--step", "step", is_flag=True,
-              help="filter stages: the response to a step of --vin instead of the sine")
+              help="filter stages: the response to a step of --vin; transimpedance: to a step of "
+              "the sensor current over --iin (instead of the sine)")
 @click.option("--json", "as_json", is_flag=True, help="JSON on stdout (SI units, THD as ratio)")
 @db_option
 def wave(part: str | None, stage: dict[str, Any], top: int | None, png: str | None,

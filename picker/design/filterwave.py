@@ -31,6 +31,7 @@ from picker.circuit.mna import GROUND, Capacitor, OpAmp, Resistor, Source
 from picker.circuit.nullor import transfer
 from picker.design.waveform import LIMITS, Drive, Waves
 from picker.stages import stage
+from picker.stages.base import Stage
 from picker.stages.filterbase import FilterStage
 
 Array = npt.NDArray[np.float64]
@@ -53,8 +54,10 @@ class System:
     i_out: int
 
 
-def system(st: FilterStage, a0: float, gbw: float, rin: float, ro: float) -> System:
-    """The descriptor system of ``st`` with one part (module docstring)."""
+def system(st: Stage, a0: float, gbw: float, rin: float, ro: float, cin: float = 0.0,
+           ccm: float = 0.0) -> System:
+    """The descriptor system of ``st`` with one part (module docstring); ``cin`` between
+    the op-amp's inputs and ``ccm`` from each input to the reference, F (0: left out)."""
     net = st.circuit
     nodes: dict[str, int] = {}
     for e in net.elements:
@@ -99,6 +102,11 @@ def system(st: FilterStage, a0: float, gbw: float, rin: float, ro: float) -> Sys
     o = nodes[amp.out]
     if math.isfinite(rin) and rin > 0:
         stamp(g, amp.p, amp.n, 1.0 / rin)
+    if cin > 0:
+        stamp(c, amp.p, amp.n, cin)
+    if ccm > 0:
+        stamp(c, amp.p, GROUND, ccm)
+        stamp(c, amp.n, GROUND, ccm)
     g[o, k_i] -= 1.0  # i_out flows from the op-amp into the output node
     g[k_i, o] += 1.0  # v_o - x + Ro·i_out = 0
     g[k_i, k_x] -= 1.0
@@ -132,29 +140,29 @@ def phasor(sy: System, freq_hz: float) -> npt.NDArray[np.complex128]:
     return np.linalg.solve(sy.g + 2j * math.pi * freq_hz * sy.c, sy.b.astype(complex))  # type: ignore[no-any-return]
 
 
-def _col(parts: Any, name: str) -> float:
+def column_value(parts: Any, name: str) -> float:
     if name not in parts:
         return math.nan
     return float(np.asarray(parts[name], dtype=float).reshape(-1)[0])
 
 
-def _flags(st: FilterStage, vo: Array, io: Array, t: Array, parts: Any, ref: float,
+def limit_flags(st: Stage, vo: Array, io: Array, t: Array, parts: Any, ref: float,
            rails: tuple[float, float]) -> npt.NDArray[np.bool_]:
-    head_p = np.nan_to_num(_col(parts, "out_head_pos_v"), nan=0.0)
-    head_n = np.nan_to_num(_col(parts, "out_head_neg_v"), nan=0.0)
+    head_p = np.nan_to_num(column_value(parts, "out_head_pos_v"), nan=0.0)
+    head_n = np.nan_to_num(column_value(parts, "out_head_neg_v"), nan=0.0)
     clip = vo.max() + ref > rails[0] - head_p or vo.min() + ref < rails[1] + head_n
-    sr, iout = _col(parts, "slew_v_per_s"), _col(parts, "iout_a")
+    sr, iout = column_value(parts, "slew_v_per_s"), column_value(parts, "iout_a")
     slope = np.abs(np.diff(vo) / np.diff(t)).max() if len(t) > 1 else 0.0
     slew = bool(math.isfinite(sr) and slope > sr)
     current = bool(math.isfinite(iout) and np.abs(io).max() > iout)
     return np.array([[clip, slew, current, False]])
 
 
-def _waves(label: str, drive: Drive, t: Array, ideal: Array, vo: Array, flags: Any,
+def settled_waves(label: str, drive: Drive, t: Array, ideal: Array, vo: Array, flags: Any,
            parts: Any) -> Waves:
     out = vo + drive.ref_v
-    hi = drive.rail_pos - np.nan_to_num(_col(parts, "out_head_pos_v"), nan=0.0)
-    lo = drive.rail_neg + np.nan_to_num(_col(parts, "out_head_neg_v"), nan=0.0)
+    hi = drive.rail_pos - np.nan_to_num(column_value(parts, "out_head_pos_v"), nan=0.0)
+    lo = drive.rail_neg + np.nan_to_num(column_value(parts, "out_head_neg_v"), nan=0.0)
     spec = np.abs(np.fft.rfft(out - out.mean()))
     thd = float(np.sqrt(np.sum(spec[2 * 2:len(spec) // 2:2] ** 2)) / spec[2]) if len(spec) > 4 \
         else math.nan
@@ -165,22 +173,22 @@ def _waves(label: str, drive: Drive, t: Array, ideal: Array, vo: Array, flags: A
                  active=flags, known=np.array([True]))
 
 
-def _part(parts: Any) -> tuple[str, float, float, float, float]:
+def part_model(parts: Any) -> tuple[str, float, float, float, float]:
     label = str(parts.index[0]) if hasattr(parts, "index") else "part"
-    return (label, _col(parts, "aol_v_per_v"), _col(parts, "gbw_hz"), _col(parts, "rin_ohm"),
-            _col(parts, "rout_ohm"))
+    return (label, column_value(parts, "aol_v_per_v"), column_value(parts, "gbw_hz"), column_value(parts, "rin_ohm"),
+            column_value(parts, "rout_ohm"))
 
 
 def sine(req: Any, parts: Any, freq_hz: float | None = None) -> Waves:
     """The settled output for a sine of --vin at ``freq_hz`` (default --freq), one part."""
     st = stage(req)
     assert isinstance(st, FilterStage) and st.ideal is not None
-    label, a0, gbw, rin, ro = _part(parts)
+    label, a0, gbw, rin, ro = part_model(parts)
     f = freq_hz or req.freq_hz
     drive = Drive(req.vin, f, req.ref, req.rail_pos, req.rail_neg, st.ideal.gain,
                   req.response_error)
     if not (gbw > 0):
-        return _unknown(label, drive)
+        return unknown_waves(label, drive)
     t: Array = np.arange(2 * PERIOD_STEPS, dtype=float) / (PERIOD_STEPS * f)
     u = np.exp(2j * math.pi * f * t)
     sy = system(st, a0, gbw, rin, ro)
@@ -188,19 +196,19 @@ def sine(req: Any, parts: Any, freq_hz: float | None = None) -> Waves:
     vo = req.vin * np.imag(z[sy.out] * u)
     io = req.vin * np.imag(z[sy.i_out] * u)
     ideal = req.vin * np.imag(complex(transfer(st.circuit, [f])[0]) * u)  # ideal op-amp
-    flags = _flags(st, vo, io, t, parts, req.ref, (req.rail_pos, req.rail_neg))
-    return _waves(label, drive, t, ideal, vo, flags, parts)
+    flags = limit_flags(st, vo, io, t, parts, req.ref, (req.rail_pos, req.rail_neg))
+    return settled_waves(label, drive, t, ideal, vo, flags, parts)
 
 
 def step(req: Any, parts: Any) -> Waves:
     """The response to a step of --vin at t = 0 from rest, one part (module docstring)."""
     st = stage(req)
     assert isinstance(st, FilterStage) and st.ideal is not None
-    label, a0, gbw, rin, ro = _part(parts)
+    label, a0, gbw, rin, ro = part_model(parts)
     drive = Drive(req.vin, 0.0, req.ref, req.rail_pos, req.rail_neg, st.ideal.gain,
                   req.response_error)
     if not (gbw > 0):
-        return _unknown(label, drive)
+        return unknown_waves(label, drive)
     sec = st.ideal
     tau = 2 * sec.q / (2 * math.pi * sec.f0_hz) if sec.q > 0.5 else (
         1 / (2 * math.pi * sec.f0_hz * (1 / (2 * sec.q) - math.sqrt(1 / (4 * sec.q**2) - 1))))
@@ -214,11 +222,11 @@ def step(req: Any, parts: Any) -> Waves:
     # the ideal curve: the same network with an op-amp a million times faster than fn
     ideal = step_run(system(st, math.inf, 1e6 * sec.f0_hz, math.inf, 0.0), u, h)[:, sy.out]
     vo, io = z[:, sy.out], z[:, sy.i_out]
-    flags = _flags(st, vo, io, t, parts, req.ref, (req.rail_pos, req.rail_neg))
-    return _waves(label, drive, t, ideal, vo, flags, parts)
+    flags = limit_flags(st, vo, io, t, parts, req.ref, (req.rail_pos, req.rail_neg))
+    return settled_waves(label, drive, t, ideal, vo, flags, parts)
 
 
-def _unknown(label: str, drive: Drive) -> Waves:
+def unknown_waves(label: str, drive: Drive) -> Waves:
     nan = np.array([math.nan])
     return Waves(labels=(label,), drive=drive, t=np.zeros(1), ideal=np.zeros(1),
                  vout=np.full((1, 1), math.nan), swing_hi=nan, swing_lo=nan, peak_pos=nan,
@@ -232,11 +240,14 @@ class Step:
 
     waves: Waves
     figures: dict[str, float | None]
+    what: str = ""  # the input step in words (empty: the step of --vin)
+    left_out: str = ""  # what the prediction leaves out (empty: the module docstring's)
 
     def summary(self, i: int = 0) -> dict[str, Any]:
         """``picker wave PART --step --json``: the wave's record and the step's figures
         (V, s; overshoot as a ratio of the final value)."""
-        return {**self.waves.summary(i), **self.figures}
+        extra = {k: v for k, v in (("step", self.what), ("left_out", self.left_out)) if v}
+        return {**self.waves.summary(i), **self.figures, **extra}
 
 
 def step_response(req: Any, parts: Any) -> Step:

@@ -66,7 +66,7 @@ def step_text(res: Any, req: Any) -> str:
     """``picker wave PART --step`` (a picker.design.filterwave.Step)."""
     from tabulate import tabulate
 
-    from picker.report.checks import filter_line
+    from picker.report.checks import stage_line
 
     w, f = res.waves, res.figures
 
@@ -74,15 +74,17 @@ def step_text(res: Any, req: Any) -> str:
         return "-" if v is None else f"{v * 1e6:.4g} µs"
 
     limits = w.limits(0)
-    rows = [["part", w.labels[0]], ["stage", filter_line(req)],
+    rows = [["part", w.labels[0]], ["stage", stage_line(req)],
             ["network", network_text(dict(req.network or {}))],
-            ["step", f"{fmt(req.vin, 'voltage')} at t = 0, from rest"],
-            ["final value", "-" if f["final"] is None else fmt(f["final"], "voltage", 4)],
+            ["step", res.what or f"{fmt(req.vin, 'voltage')} at t = 0, from rest"],
+            ["final change from rest", "-" if f["final"] is None else fmt(f["final"], "voltage", 4)],
             ["peak +", fmt(float(w.peak_pos[0]), "voltage", 4)],
             ["peak -", fmt(float(w.peak_neg[0]), "voltage", 4)],
             ["overshoot", "-" if f["overshoot"] is None else f"{f['overshoot']:.2%}"],
             ["rise time 10-90%", t(f["rise_time"])], ["settling to 1%", t(f["settling_time"])],
             ["limits (linear prediction, flagged)", ", ".join(limits) if limits else "none"]]
+    if res.left_out:
+        rows.append(["left out", res.left_out])
     return str(tabulate(rows, tablefmt="plain", disable_numparse=True))
 
 
