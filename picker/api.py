@@ -27,6 +27,7 @@ from picker.design.rank import By, Selection, select
 from picker.design.requirement import Requirement, requirement_from
 from picker.design.series import SeriesName
 from picker.design.spec import Spec, minimum_specs
+from picker.stages import kind
 
 DEFAULT_SERIES: SeriesName = "E24"
 
@@ -66,18 +67,9 @@ def built(req: Requirement, series: SeriesName = DEFAULT_SERIES) -> Requirement:
     """
     from picker.design.network import with_designed_network
 
-    if req.is_filter:  # a filter section: capacitors first, resistors snapped
-        from picker.design.filternet import with_filter_network
-
-        return with_filter_network(req, series)
-    if req.is_tia:  # rf from the series, cf from --cap-series (picker.design.tianet)
-        from picker.design.tianet import with_tia_network
-
-        return with_tia_network(req, series)
-    if req.topology == "level-shift":  # picker.design.levelnet: the ranges set it
-        from picker.design.levelnet import with_level_network
-
-        return with_level_network(req, series)
+    own = kind(req.topology).designed(req, series)  # a stage type's own designer
+    if own is not None:
+        return own
     return with_designed_network(req, series=series)
 
 
@@ -285,20 +277,10 @@ def design_network(req: Requirement, part: Mapping[str, Any] | None = None, *,
     """
     from picker.design.network import design_network as design
     from picker.errors import BadRequirement
-    from picker.stages import kind
 
-    if req.is_filter:  # picker.design.filternet.FilterNetwork
-        from picker.design.filternet import design_filter
-
-        return design_filter(req, series)
-    if req.is_tia:  # picker.design.tianet.TiaNetwork
-        from picker.design.tianet import design_tia
-
-        return design_tia(req, series)
-    if req.topology == "level-shift":  # picker.design.levelnet.LevelNetwork
-        from picker.design.levelnet import design_levels
-
-        return design_levels(req, series)
+    own = kind(req.topology).design(req, series)  # a stage type's own designer
+    if own is not None:
+        return own
     full = req.network is not None or (req.rf_pinned and req.rg_ohm is not None) or (
         req.topology == "follower" and req.rf_pinned)
     if check and not full and kind(req.topology).pair_names is not None:

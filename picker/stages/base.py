@@ -214,6 +214,16 @@ class StageType(ABC):
                      with_cload(self.netlist(res, req.source_ohm, load), req.cload_f),
                      req.cload_f)
 
+    def designed(self, req: Requirement, series: str) -> Requirement | None:
+        """``req`` with the network this stage type designs itself from ``series``
+        (picker.api.built); None: the gain-pair designer of picker.design.network."""
+        return None
+
+    def design(self, req: Requirement, series: str) -> Any:
+        """This stage type's own network design, as ``picker net`` shows it
+        (picker.api.design_network); None: the gain-pair designer."""
+        return None
+
     @abstractmethod
     def ideal_network(self, gain: float, rs: float, rf: float) -> dict[str, float]:
         """Resistors of exact ratio from ``rf`` (Ω), the source resistance ``rs`` counted."""

@@ -125,6 +125,18 @@ class FilterType(StageType):
         return section(self.kind, req.f0_hz, sign * req.gain, req.response,
                        req.passband_ripple_db, req.bandwidth_hz)
 
+    def designed(self, req: Requirement, series: str) -> Requirement | None:
+        """Capacitors first, resistors snapped (picker.design.filternet)."""
+        from picker.design.filternet import with_filter_network  # it imports this module
+
+        return with_filter_network(req, series)  # type: ignore[arg-type]
+
+    def design(self, req: Requirement, series: str) -> Any:
+        """picker.design.filternet.FilterNetwork."""
+        from picker.design.filternet import design_filter  # it imports this module
+
+        return design_filter(req, series)  # type: ignore[arg-type]
+
     def build(self, req: Requirement) -> Stage:
         """The stage of ``req``: its network (given, or the exact design) and band scan."""
         sec = self.target(req)

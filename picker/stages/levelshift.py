@@ -48,7 +48,7 @@ from __future__ import annotations
 import math
 from collections.abc import Mapping
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Literal
+from typing import TYPE_CHECKING, Any, Literal
 
 import numpy as np
 import numpy.typing as npt
@@ -291,6 +291,18 @@ class LevelShift(StageType):
             raise BadRequirement("--vin-range/--vout-range: a level-shift stage needs both "
                                  "ranges, e.g. --vin-range 0..80mV --vout-range 0.25..4.75V")
         return mapping(req.vin_range, req.vout_range)
+
+    def designed(self, req: Requirement, series: str) -> Requirement | None:
+        """The divider and gain network the ranges set (picker.design.levelnet)."""
+        from picker.design.levelnet import with_level_network  # it imports this module
+
+        return with_level_network(req, series)  # type: ignore[arg-type]
+
+    def design(self, req: Requirement, series: str) -> Any:
+        """picker.design.levelnet.LevelNetwork."""
+        from picker.design.levelnet import design_levels  # it imports this module
+
+        return design_levels(req, series)  # type: ignore[arg-type]
 
     def build(self, req: Requirement) -> Stage:
         g, off = self.mapping(req)

@@ -44,7 +44,7 @@ from __future__ import annotations
 import math
 from collections.abc import Mapping
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, ClassVar
+from typing import TYPE_CHECKING, Any, ClassVar
 
 import numpy as np
 import numpy.typing as npt
@@ -188,6 +188,18 @@ class Transimpedance(StageType):
     network_names: ClassVar[tuple[str, ...]] = ("rf", "cf")
     required: ClassVar[tuple[str, ...]] = ("rf", "cf")
     gain_names: ClassVar[tuple[str, ...]] = ()
+
+    def designed(self, req: Requirement, series: str) -> Requirement | None:
+        """rf from the series, cf from the capacitor series (picker.design.tianet)."""
+        from picker.design.tianet import with_tia_network  # it imports this module
+
+        return with_tia_network(req, series)  # type: ignore[arg-type]
+
+    def design(self, req: Requirement, series: str) -> Any:
+        """picker.design.tianet.TiaNetwork."""
+        from picker.design.tianet import design_tia  # it imports this module
+
+        return design_tia(req, series)  # type: ignore[arg-type]
 
     def build(self, req: Requirement) -> Stage:
         """The stage of ``req``: its rf and cf (given, or designed by picker.api.built)."""
