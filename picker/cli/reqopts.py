@@ -15,14 +15,14 @@ from typing import Any, TypeVar
 import click
 
 from picker.cli.params import QuantityParam, RailsParam
-from picker.design.keys import KEYS as KEY_LIST
-from picker.design.keys import Key
+from picker.keys import KEYS as KEY_LIST
+from picker.keys import Key
 
 F = TypeVar("F", bound=Callable[..., Any])
 
 
 def _click_type(key: Key) -> Any:
-    """The click parameter type that converts ``key``'s option (picker.design.keys)."""
+    """The click parameter type that converts ``key``'s option (picker.keys)."""
     if key.kind == "choice":
         return click.Choice(list(key.choices), case_sensitive=False)
     special = {"text": str, "rails": RailsParam(), "number": click.FloatRange(min=1.0),

@@ -1,7 +1,7 @@
 """Design files: a stage's requirement kept in TOML, to rerun later against the stock.
 
 ``template()`` is the commented file ``picker design new`` writes: every requirement key
-(picker.design.keys) with its unit, its default and an example; the keys a
+(picker.keys) with its unit, its default and an example; the keys a
 stage cannot do without are set to an example stage, the others commented out.
 ``design_text(values)`` writes a requirement as given (picker.design.requirement.given:
 a design file's values with the options over them) so that reading it back builds the
@@ -20,8 +20,8 @@ from collections.abc import Mapping, Sequence
 from pathlib import Path
 from typing import Any
 
-from picker.design.keys import BY_NAME, KEYS
 from picker.errors import BadValue
+from picker.keys import BY_NAME, KEYS
 
 #: The keys ``template()`` sets to an example stage (a stage needs them).
 EXAMPLE_STAGE: dict[str, str] = {"topology": '"inverting"', "gain": '"10"',

@@ -32,9 +32,9 @@ from dataclasses import MISSING, dataclass, field, fields, replace
 from pathlib import Path
 from typing import Any, Literal, get_args
 
-from picker.design import keys as _keys
-from picker.design.keys import RESPONSES
+from picker import keys as _keys
 from picker.errors import BadRequirement, BadValue
+from picker.keys import RESPONSES
 from picker.stages import kind, kinds
 
 Topology = Literal["inverting", "non-inverting", "follower", "difference", "vcvs-lowpass",
@@ -47,7 +47,7 @@ ELV_DC_V = 60.0
 #: The temperature offset drift is specified from.
 T_REF_C = 25.0
 
-# requirement key (as written, dashes) -> dataclass field (picker.design.keys)
+# requirement key (as written, dashes) -> dataclass field (picker.keys)
 KEYS: dict[str, str] = {k.name: k.field for k in _keys.KEYS}
 
 #: Keys of a level-shift stage; the ranges replace --vin/--vout, --gain and --ref.

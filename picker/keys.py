@@ -27,7 +27,6 @@ from picker.quantities import (
     parse_amplitude,
     parse_rails,
 )
-from picker.stages import kinds
 
 #: Physical ranges a stage value must lie in (common practice for op-amp stages, no
 #: source): beyond them, derived quantities (loop gain, time steps, noise integrals)
@@ -161,6 +160,8 @@ def _topology(raw: Any, name: str) -> dict[str, Any]:
     t = raw.strip().lower().replace("_", "-") if isinstance(raw, str) else ""
     t = {"noninverting": "non-inverting", "non-inv": "non-inverting",
          "inv": "inverting", "buffer": "follower", "diff": "difference"}.get(t, t)
+    from picker.stages import kinds  # here: the stage modules load numpy (keeps --help light)
+
     if t not in kinds():
         raise BadValue(name, Brief(raw), "is not a topology; use one of " + ", ".join(kinds()))
     return {"topology": t}
@@ -408,12 +409,16 @@ def _range_of(key: str, field: str) -> Reader:
     return read
 
 
-_TOPOLOGIES: tuple[str, ...] = tuple(kinds())  # every registered stage type
+#: every registered stage type, written out so that `picker pick --help` loads no stage
+#: module (they import numpy); tests/design/test_keys.py holds it equal to the registry
+TOPOLOGY_NAMES: tuple[str, ...] = (
+    "inverting", "non-inverting", "follower", "difference", "vcvs-lowpass", "vcvs-highpass",
+    "mfb-lowpass", "mfb-bandpass", "transimpedance", "level-shift")
 
 #: Every requirement key, in the order of --help and the design-file template.
 KEYS: tuple[Key, ...] = (
     Key("topology", "topology", _topology, "stage topology (see picker.stages)",
-        "none: required", '"inverting"', kind="choice", choices=_TOPOLOGIES),
+        "none: required", '"inverting"', kind="choice", choices=TOPOLOGY_NAMES),
     Key("gain", "gain", _quantity("gain", "gain", "gain", positive=True),
         "signal-gain magnitude, V/V or dB (e.g. 10, 20dB)", "none: required, 1 for a follower",
         '"10"', kind="gain", positive=True, unit=" V/V", words="V/V or dB"),
@@ -586,4 +591,4 @@ KEYS: tuple[Key, ...] = (
 #: key name -> Key
 BY_NAME: dict[str, Key] = {k.name: k for k in KEYS}
 
-__all__ = ["ASSUMABLE", "BY_NAME", "KEYS", "RANGES", "RESPONSES", "Key", "optional", "ranged"]
+__all__ = ["ASSUMABLE", "BY_NAME", "KEYS", "RANGES", "RESPONSES", "TOPOLOGY_NAMES", "Key", "optional", "ranged"]
