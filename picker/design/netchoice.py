@@ -58,19 +58,12 @@ def niceness(values: npt.ArrayLike) -> Array:
     """0 for decade values, then 1 + the index of the coarsest series holding it."""
     v = np.asarray(values, float)
     out = np.full(v.shape, float(len(_NICE_ORDER) + 1))
-    flat = out.reshape(-1)
-    for k, x in enumerate(v.reshape(-1)):
-        if not (x > 0 and math.isfinite(x)):
-            continue
-        mant = x / 10.0 ** math.floor(math.log10(x) + 1e-12)
-        if abs(mant - 1.0) < 1e-9:
-            flat[k] = 0.0
-            continue
-        for i, name in enumerate(_NICE_ORDER):
-            if es.is_member(float(x), name):
-                flat[k] = float(i + 1)
-                break
-    return out
+    for i in range(len(_NICE_ORDER) - 1, -1, -1):  # finest first: the coarsest overwrites
+        out = np.where(es.members(v, _NICE_ORDER[i]), float(i + 1), out)
+    pos = (v > 0) & np.isfinite(v)
+    safe = np.where(pos, v, 1.0)
+    mant = safe / 10.0 ** np.floor(np.log10(safe) + 1e-12)
+    return np.where(pos & (np.abs(mant - 1.0) < 1e-9), 0.0, out)  # type: ignore[no-any-return]
 
 
 def score(ctx: Context, m: nm.PairModel, lims: list[Limit], a: Array, b: Array) -> Array:

@@ -67,18 +67,26 @@ def values(name: SeriesName, lo: float, hi: float) -> Array:
     return a[(a >= lo) & (a <= hi)]
 
 
+def members(values: npt.ArrayLike, name: SeriesName) -> npt.NDArray[np.bool_]:
+    """Per element: True when the value (Ω, > 0) is a member of the series at its decade
+    (its significant figures, scaled by a power of ten, within 1e-9 of one of the
+    series' figures)."""
+    v = np.asarray(values, dtype=float)
+    pos = (v > 0) & np.isfinite(v)
+    safe = np.where(pos, v, 1.0)
+    figs = np.asarray(figures(name), dtype=float)
+    e = np.floor(np.log10(safe)) - (digits(name) - 1)
+    ok = np.zeros(v.shape, dtype=bool)
+    for k in (-1, 0, 1):  # guard log10 rounding at a decade's edge
+        f = safe / 10.0 ** (e + k)
+        r = np.round(f)
+        ok |= pos & (np.abs(f - r) <= 1e-9 * f) & np.isin(r, figs)
+    return ok
+
+
 def is_member(value: float, name: SeriesName) -> bool:
     """True when ``value`` (Ω, > 0) is a member of the series at its decade."""
-    if not (value > 0 and math.isfinite(value)):
-        return False
-    n = digits(name)
-    e = math.floor(math.log10(value)) - (n - 1)
-    for k in (e - 1, e, e + 1):  # guard log10 rounding at a decade's edge
-        f = value / 10.0**k
-        r = round(f)
-        if abs(f - r) <= 1e-9 * f and r in figures(name):
-            return True
-    return False
+    return bool(members(np.array([value], dtype=float), name)[0])
 
 
 def nearest(value: float, name: SeriesName) -> float:

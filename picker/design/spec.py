@@ -257,7 +257,7 @@ def tolerance_that_fits(req: Requirement, st: Stage) -> float | None:
     return None
 
 
-def minimum_specs(req: Requirement) -> Spec:
+def minimum_specs(req: Requirement, *, advice: bool = True) -> Spec:
     """Turn a requirement into minimum specifications (see the module docstring).
 
     Parameters
@@ -265,6 +265,10 @@ def minimum_specs(req: Requirement) -> Spec:
     req : Requirement
         The stage, with its network (an explicit one, or the ideal ratio from ``rf``;
         picker.api designs the E-series network first).
+    advice : bool
+        Name the resistor tolerance class that fits when the tolerance takes most of
+        the gain budget (a network design per class tried; a search that reads only
+        the verdict leaves it out).
 
     Returns
     -------
@@ -300,7 +304,7 @@ def minimum_specs(req: Requirement) -> Spec:
                      f"{minimum.swing_pos_v:.4g} V, beyond the rails: no part can pass swing; "
                      "lower the amplitude, move --ref or widen the rails")
     spread = max(budget.tolerance_low, budget.tolerance_high)
-    if budget.opamp < budget.allowed / 2 and spread > 0:
+    if advice and budget.opamp < budget.allowed / 2 and spread > 0:
         fit = tolerance_that_fits(req, st)
         cls = ("no standard tolerance leaves it room; widen --gain-error" if fit is None else
                f"{fmt(fit, 'ratio')} resistors leave it at least half (--tolerance "
