@@ -288,20 +288,27 @@ def _assume(value: Any, name: str) -> dict[str, Any]:
     return {"assume": out}
 
 
-def _levels(value: Any, name: str, what: str) -> tuple[float, float]:
-    """A voltage level (``2.5V``) or range (``-5..5V``, ``[-5, 5]``), V."""
+def _ends(value: Any, name: str, what: str, example: str) -> tuple[Any, Any] | None:
+    """The two ends of a range as written: ``[a, b]`` or ``"a..bU"`` (the unit after b
+    serves a too); None for a single value."""
     if isinstance(value, list | tuple):
         if len(value) != 2:
-            raise BadValue(name, Brief(value), f"needs two {what}, low and high, e.g. [-5, 5]")
-        lo, hi = (parse(v, "voltage", name) for v in value)
-    elif isinstance(value, str) and ".." in value:
+            raise BadValue(name, Brief(value), f"needs two {what}, low and high, e.g. {example}")
+        return value[0], value[1]
+    if isinstance(value, str) and ".." in value:
         a, b = value.split("..", 1)
         unit = "".join(ch for ch in b if ch.isalpha())
-        a = a if any(ch.isalpha() for ch in a) else a + unit
-        lo, hi = parse(a, "voltage", name), parse(b, "voltage", name)
-    else:
-        lo = hi = parse(value, "voltage", name)
-    return lo, hi
+        return (a if any(ch.isalpha() for ch in a) else a + unit), b
+    return None
+
+
+def _levels(value: Any, name: str, what: str) -> tuple[float, float]:
+    """A voltage level (``2.5V``) or range (``-5..5V``, ``[-5, 5]``), V."""
+    ends = _ends(value, name, what, "[-5, 5]")
+    if ends is None:
+        v = parse(value, "voltage", name)
+        return v, v
+    return parse(ends[0], "voltage", name), parse(ends[1], "voltage", name)
 
 
 def _vcm(raw: Any, name: str) -> dict[str, Any]:
@@ -345,22 +352,14 @@ def _currents(value: Any, name: str) -> tuple[float, float]:
             ranged("iin", abs(x), name, value)
         return x
 
-    if isinstance(value, list | tuple):
-        if len(value) != 2:
-            raise BadValue(name, Brief(value), "needs two currents, low and high, e.g. "
-                           "[0, '10uA']")
-        lo, hi = one(value[0]), one(value[1])
-    elif isinstance(value, str) and ".." in value:
-        a, b = value.split("..", 1)
-        unit = "".join(ch for ch in b if ch.isalpha())
-        a = a if any(ch.isalpha() for ch in a) else a + unit
-        lo, hi = one(a), one(b)
-    else:
+    ends = _ends(value, name, "currents", "[0, '10uA']")
+    if ends is None:
         p = abs(one(value))
         if p == 0:
             raise BadValue(name, Brief(value), "is zero; give the peak signal current, e.g. "
                            "10uA")
         return -p, p
+    lo, hi = one(ends[0]), one(ends[1])
     if lo > hi:
         raise BadValue(name, Brief(value), "write the range low..high, e.g. 0..10uA")
     if lo == hi:
@@ -388,18 +387,11 @@ def _tia_response(raw: Any, name: str) -> dict[str, Any]:
 
 def _level_range(value: Any, name: str, key: str) -> tuple[float, float]:
     """Two levels as written, in order: ``0..80mV``, ``4.75..0.25V``, ``[0, 0.08]``, V."""
-    if isinstance(value, list | tuple):
-        if len(value) != 2:
-            raise BadValue(name, Brief(value), "needs two levels, e.g. [0, 0.08]")
-        a, b = (parse(v, "voltage", name) for v in value)
-    elif isinstance(value, str) and ".." in value:
-        left, right = value.split("..", 1)
-        unit = "".join(ch for ch in right if ch.isalpha())
-        left = left if any(ch.isalpha() for ch in left) else left + unit
-        a, b = parse(left, "voltage", name), parse(right, "voltage", name)
-    else:
+    ends = _ends(value, name, "levels", "[0, 0.08]")
+    if ends is None:
         raise BadValue(name, Brief(value), "is not a range; write two levels low..high, "
                        "e.g. 0..80mV")
+    a, b = parse(ends[0], "voltage", name), parse(ends[1], "voltage", name)
     return ranged(key, a, name, value), ranged(key, b, name, value)
 
 

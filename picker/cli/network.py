@@ -64,12 +64,8 @@ def net(stage: dict[str, Any], series: str, check: bool,
     from picker.report.tables import to_json
 
     req = build_requirement(stage)
-    if req.topology == "level-shift":
-        _level_net(req, series, part, as_json)
-        save_requirement(stage, save, db)
-        return
-    if req.is_filter or req.is_tia:
-        _filter_net(req, series, part, as_json)
+    if req.is_filter or req.is_tia or req.topology == "level-shift":
+        _own_net(req, series, part, as_json)
         save_requirement(stage, save, db)
         return
     row = open_store(db).get(part) if part else None
@@ -87,18 +83,19 @@ def net(stage: dict[str, Any], series: str, check: bool,
     save_requirement(stage, save, db)
 
 
-def _filter_net(req: Any, series: str, part: str | None, as_json: bool) -> None:
-    """``picker net`` for a filter stage (capacitors, resistors and their spread) or a
-    transimpedance stage (rf, cf and the GBW they ask)."""
+def _own_net(req: Any, series: str, part: str | None, as_json: bool) -> None:
+    """``picker net`` for a stage type that designs its own network: a filter
+    (capacitors, resistors and their spread), a transimpedance stage (rf, cf and the GBW
+    they ask) or a level-shift stage (the divider, its levels and its errors)."""
     from picker import api
     from picker.errors import BadValue
     from picker.report.filters import net_text
+    from picker.report.levelshift import level_text
     from picker.report.tables import to_json
 
     if part is not None:
-        raise BadValue("--part", part, "applies to the resistive stages; for a filter or a "
-                       "transimpedance stage, `picker why PART` and `picker bode PART` show "
-                       "what the part makes of it")
+        raise BadValue("--part", part, "applies to the gain-pair stages; for this stage, "
+                       "`picker why PART` checks the part in it")
     network = api.design_network(req, series=series)  # type: ignore[arg-type]
     if as_json:
         click.echo(to_json(network.as_json()))
@@ -107,24 +104,7 @@ def _filter_net(req: Any, series: str, part: str | None, as_json: bool) -> None:
         return
     if req.is_tia:
         click.echo(network.text(req.cautions))
-        return
-    click.echo(net_text(network, req.cautions))
-
-
-def _level_net(req: Any, series: str, part: str | None, as_json: bool) -> None:
-    """``picker net`` for a level-shift stage: the divider, its levels and its errors."""
-    from picker import api
-    from picker.errors import BadValue
-    from picker.report.levelshift import level_text
-    from picker.report.tables import to_json
-
-    if part is not None:
-        raise BadValue("--part", part, "applies to the gain-pair stages; for a level-shift "
-                       "stage, `picker why PART` checks the part at the real levels")
-    network = api.design_network(req, series=series)  # type: ignore[arg-type]
-    if as_json:
-        click.echo(to_json(network.as_json()))
-        for c in req.cautions:
-            click.echo(c, err=True)
-        return
-    click.echo(level_text(network, req.cautions))
+    elif req.is_filter:
+        click.echo(net_text(network, req.cautions))
+    else:
+        click.echo(level_text(network, req.cautions))
