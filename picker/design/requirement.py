@@ -50,17 +50,11 @@ T_REF_C = 25.0
 # requirement key (as written, dashes) -> dataclass field (picker.keys)
 KEYS: dict[str, str] = {k.name: k.field for k in _keys.KEYS}
 
-#: Keys of a level-shift stage; the ranges replace --vin/--vout, --gain and --ref.
-LEVEL_KEYS = ("vin-range", "vout-range", "shift-source")
 #: How closely a --gain given with the ranges must agree with theirs (relative).
 RANGE_GAIN_AGREEMENT = 1e-3
 
-#: Keys that describe a filter section; other stages refuse them.
-FILTER_KEYS = ("f0", "response", "passband-ripple", "bandwidth")
 Label = Callable[[str], str]
 
-#: Keys of the transimpedance stage; other stages refuse them.
-TIA_KEYS = ("iin", "iin-min", "cdet", "rshunt", "zt", "f3db", "rise", "tia-response")
 #: Keys a transimpedance stage refuses (its input is a current, set by --iin).
 TIA_REFUSED = ("gain", "vin", "source", "rg", "rin", "zin")
 #: 10-90% rise time x -3 dB bandwidth of a single pole, 0.35 (ln 9/2π; common practice,
