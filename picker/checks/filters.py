@@ -29,6 +29,7 @@ from picker.checks import Check
 from picker.checks.core import Array, CheckResult, Parts, result
 from picker.checks.filterloop import FILTER_STABILITY
 from picker.checks.filternoise import FILTER_NOISE
+from picker.checks.limits import rated_slew
 from picker.circuit.nullor import transfer
 from picker.circuit.opamp import loop
 from picker.design.filterspec import RULE_FACTOR, gbw_rule, rule_gain
@@ -153,10 +154,6 @@ FILTER_RESPONSE = Check(
 
 # -- slew and output current at the response's peak ---------------------------------------
 
-def _slew(p: Parts, s: Spec) -> CheckResult:
-    return result("filter_slew", "slew", ">=", s.minimum.slew_v_per_s, p["slew_v_per_s"])
-
-
 def _slew_explain(s: Spec) -> list[Explained]:
     req, st = s.requirement, _st(s)
     return [Explained(
@@ -167,13 +164,9 @@ def _slew_explain(s: Spec) -> list[Explained]:
         f"{fmt(s.minimum.slew_v_per_s, 'slew', 4)}")]
 
 
-FILTER_SLEW = Check(
-    name="filter_slew", kind="slew", reads=("slew_v_per_s",), run=_slew,
-    formula="SR >= m·Vp,in·max 2π·f·|H(j2πf)| for f up to --freq (a sine's steepest output "
-            "slope wherever the response makes it largest)",
-    explain=_slew_explain,
-    detail=lambda s, p, i: f"rated {fmt(float(p['slew_v_per_s'][i]), 'slew', 4)}",
-    applies=_is_filter, amplitude="proportional")
+FILTER_SLEW = rated_slew(
+    "filter_slew", "SR >= m·Vp,in·max 2π·f·|H(j2πf)| for f up to --freq (a sine's steepest "
+    "output slope wherever the response makes it largest)", _slew_explain, applies=_is_filter)
 
 
 def _current(p: Parts, s: Spec) -> CheckResult:

@@ -11,6 +11,7 @@ picker.design.spec). The worse side is reported. Headrooms are the datasheet's
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -204,11 +205,6 @@ COMMON_MODE = Check(
 
 # -- slew --------------------------------------------------------------------------------
 
-def _slew(p: Parts, s: Spec) -> CheckResult:
-    """SR >= 2π·f·Vp,out·m: a sine's steepest slope (Vp·ω at the zero crossing)."""
-    return result("slew", "slew", ">=", s.minimum.slew_v_per_s, p["slew_v_per_s"])
-
-
 def _slew_explain(s: Spec) -> list[Explained]:
     req = s.requirement
     return [Explained(
@@ -217,13 +213,27 @@ def _slew_explain(s: Spec) -> list[Explained]:
         f"{fmt(s.minimum.slew_v_per_s, 'slew', 4)}")]
 
 
-def _slew_detail(s: Spec, p: Parts, i: int) -> str:
-    return f"rated {fmt(float(p['slew_v_per_s'][i]), 'slew', 4)}"
+def _every_stage(s: Spec) -> bool:
+    return True
 
 
-SLEW = Check(name="slew", kind="slew", reads=("slew_v_per_s",), run=_slew,
-             formula="SR >= 2π·f·Vp,out·m (a sine's steepest slope, with the margin)",
-             explain=_slew_explain, detail=_slew_detail, amplitude="proportional")
+def rated_slew(name: str, formula: str, explain: Callable[[Spec], list[Explained]],
+               applies: Callable[[Spec], bool] = _every_stage) -> Check:
+    """A check that the part's rated slew rate reaches the stage's minimum
+    (``Spec.minimum.slew_v_per_s``); each stage family gives the formula of its minimum
+    and its explanation (``applies``: the stages it holds for)."""
+    def run(p: Parts, s: Spec) -> CheckResult:
+        return result(name, "slew", ">=", s.minimum.slew_v_per_s, p["slew_v_per_s"])
+
+    return Check(name=name, kind="slew", reads=("slew_v_per_s",), run=run, formula=formula,
+                 explain=explain, amplitude="proportional",
+                 detail=lambda s, p, i: f"rated {fmt(float(p['slew_v_per_s'][i]), 'slew', 4)}",
+                 applies=applies)
+
+
+#: SR >= 2π·f·Vp,out·m: a sine's steepest slope (Vp·ω at the zero crossing)
+SLEW = rated_slew("slew", "SR >= 2π·f·Vp,out·m (a sine's steepest slope, with the margin)",
+                  _slew_explain)
 
 
 # -- output current ------------------------------------------------------------------------

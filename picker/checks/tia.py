@@ -40,6 +40,7 @@ import numpy as np
 from picker.checks import Check
 from picker.checks.accuracy import BOLTZMANN
 from picker.checks.core import Array, CheckResult, Parts, result
+from picker.checks.limits import rated_slew
 from picker.checks.stability import model
 from picker.circuit.loopgain import closed_loop
 from picker.design.spec import Explained
@@ -243,10 +244,6 @@ TIA_BIAS = Check(
 
 # -- slew ----------------------------------------------------------------------------------
 
-def _slew(p: Parts, s: Spec) -> CheckResult:
-    return result("tia_slew", "slew", ">=", s.minimum.slew_v_per_s, p["slew_v_per_s"])
-
-
 def _slew_explain(s: Spec) -> list[Explained]:
     from picker.design.tiaspec import step_span
 
@@ -260,13 +257,10 @@ def _slew_explain(s: Spec) -> list[Explained]:
                       text + f" = {fmt(s.minimum.slew_v_per_s, 'slew', 4)}")]
 
 
-TIA_SLEW = Check(
-    name="tia_slew", kind="slew", reads=("slew_v_per_s",), run=_slew,
-    formula="SR >= m·2π·f·Vp,out for a peak current (a sine at --freq, default the "
-            "bandwidth), m·2π·B·ΔV for a DC range (a full-range step through a single pole)",
-    explain=_slew_explain,
-    detail=lambda s, p, i: f"rated {fmt(float(p['slew_v_per_s'][i]), 'slew', 4)}",
-    applies=_is_tia, amplitude="proportional")
+TIA_SLEW = rated_slew(
+    "tia_slew", "SR >= m·2π·f·Vp,out for a peak current (a sine at --freq, default the "
+    "bandwidth), m·2π·B·ΔV for a DC range (a full-range step through a single pole)",
+    _slew_explain, applies=_is_tia)
 
 
 # -- noise ---------------------------------------------------------------------------------
