@@ -337,6 +337,13 @@ def waveform(req: Requirement, store: Any, part: str, freq_hz: float | None = No
     """
     from picker.design.waveform import COLUMNS, waveforms
 
+    if req.is_tia:  # the sensor current as a sine, linear, limits flagged (design.tiawave)
+        from picker.design.tiawave import COLUMNS as TIA_COLUMNS
+        from picker.design.tiawave import current_sine
+
+        tw = current_sine(built(req), part_frame(store, part, TIA_COLUMNS), freq_hz)
+        _need_known(bool(tw.known[0]), part, "gain-bandwidth product")
+        return tw
     if req.is_filter:  # the filter's circuit, linear, limits flagged (picker.design.filterwave)
         from picker.design.filterwave import COLUMNS as FILTER_COLUMNS
         from picker.design.filterwave import sine

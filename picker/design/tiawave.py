@@ -1,4 +1,8 @@
-"""Time-domain prediction of a transimpedance stage with a part: the current step.
+"""Time-domain prediction of a transimpedance stage with a part: the sine and the step.
+
+The sine (``current_sine``, ``picker wave PART``): the sensor current swings over
+``--iin`` (a peak ``p``: -p..p; a DC range lo..hi: around its middle) at ``--freq``; the
+settled output is the linear steady state of the same circuit (its phasor at jω).
 
 The sensor current steps from the low end of ``--iin`` to its high end at t = 0 (a
 peak ``p`` steps from -p to +p), the stage at rest before it: the output moves from
@@ -22,19 +26,22 @@ from typing import Any
 import numpy as np
 import numpy.typing as npt
 
+from picker.circuit.nullor import transfer
 from picker.design.filterwave import (
+    PERIOD_STEPS,
     STEPS,
     Step,
     column_value,
     limit_flags,
     part_model,
+    phasor,
     settled_waves,
     step_figures,
     step_run,
     system,
     unknown_waves,
 )
-from picker.design.waveform import Drive
+from picker.design.waveform import Drive, Waves
 from picker.quantities import fmt
 from picker.stages import stage
 from picker.stages.transimpedance import TiaStage, fn_of, q_of
@@ -109,4 +116,30 @@ def current_step(req: Any, parts: Any) -> Step:
     return Step(w, step_figures(w, final), what, LEFT_OUT)
 
 
-__all__ = ["COLUMNS", "LEFT_OUT", "current_step"]
+def current_sine(req: Any, parts: Any, freq_hz: float | None = None) -> Waves:
+    """The settled output for a sine of the sensor current over ``--iin`` at ``freq_hz``
+    (default --freq), one part (module docstring). Absolute output levels, V."""
+    st = stage(req)
+    assert isinstance(st, TiaStage)
+    lo_i, hi_i = req.iin_a
+    mid, amp = (lo_i + hi_i) / 2, (hi_i - lo_i) / 2
+    f = freq_hz or req.freq_hz
+    drive = Drive(amp * st.rn, f, req.ref - mid * st.rf, req.rail_pos, req.rail_neg,
+                  -st.rf / st.rn, req.gain_error)
+    label, a0, gbw, rin, ro = part_model(parts)
+    if not (gbw > 0):
+        return unknown_waves(label, drive)
+    cin = float(np.nan_to_num(column_value(parts, "cin_diff_f"), nan=0.0))
+    ccm = float(np.nan_to_num(column_value(parts, "cin_cm_f"), nan=0.0))
+    t: Array = np.arange(2 * PERIOD_STEPS, dtype=float) / (PERIOD_STEPS * f)
+    u = np.exp(2j * math.pi * f * t)
+    sy = system(st, a0, gbw, rin, ro, cin, ccm)
+    z = phasor(sy, f)
+    vo = drive.vin_pk * np.imag(z[sy.out] * u)
+    io = drive.vin_pk * np.imag(z[sy.i_out] * u)
+    ideal = drive.vin_pk * np.imag(complex(transfer(st.circuit, [f])[0]) * u)
+    flags = limit_flags(st, vo, io, t, parts, drive.ref_v, (req.rail_pos, req.rail_neg))
+    return settled_waves(label, drive, t, ideal, vo, flags, parts)
+
+
+__all__ = ["COLUMNS", "LEFT_OUT", "current_sine", "current_step"]

@@ -16,7 +16,7 @@ import numpy as np
 import pandas as pd
 
 from picker import api
-from picker.design.tiawave import current_step
+from picker.design.tiawave import current_sine, current_step
 from picker.stages import stage
 from picker.stages.transimpedance import TiaStage
 from picker.store import Store
@@ -92,3 +92,26 @@ def test_wave_step_json_equals_the_api(tmp_path: Path) -> None:
     np.testing.assert_allclose(js["rise_time"], res["rise_time"], rtol=1e-12)
     # the step goes -10 µA -> +10 µA: the output falls by 2 V (ideal: I·Rf, rf 100 kΩ)
     np.testing.assert_allclose(js["final"], -2.0, rtol=1e-9)
+
+
+def test_current_sine_matches_ngspice_ac(tmp_path: Path) -> None:
+    """The settled sine (``picker wave PART``) against ngspice ``.ac`` of the same circuit
+    at --freq: peak amplitude and the level it swings around within 0.1%."""
+    for k, opts in enumerate(STAGES):
+        req = api.built(api.requirement(**opts))
+        st = stage(req)
+        assert isinstance(st, TiaStage)
+        w = current_sine(req, pd.DataFrame([PART], index=["jfet-gp-a"]))
+        lo, hi = req.iin_a
+        deck = _tran(st, 0.0, 0.0, 1e-9, 1e-6).splitlines()
+        deck = [("I1 0 n DC 0 AC 1" if line.startswith("I1 ") else
+                 f".ac lin 1 {req.freq_hz!r} {req.freq_hz!r}" if line.startswith(".tran")
+                 else line) for line in deck]
+        plots = run_deck("\n".join(deck) + "\n", tmp_path, f"tia_sine{k}")
+        ac = next(v for name, v in plots.items() if "ac" in name.lower())
+        h = abs(complex(ac["v(o)"][0]))  # V per A into the inverting input
+        amp = (hi - lo) / 2
+        peak = (float(w.peak_pos[0]) - float(w.peak_neg[0])) / 2
+        np.testing.assert_allclose(peak, h * amp, rtol=1e-3)
+        mid = (float(w.peak_pos[0]) + float(w.peak_neg[0])) / 2
+        assert abs(mid - (req.ref - (lo + hi) / 2 * st.rf)) <= 1e-3 * h * amp
