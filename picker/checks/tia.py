@@ -275,6 +275,11 @@ def output_noise(s: Spec, en: Array, cur: Array, gbw: Array, a0: Array, ct: Arra
     four_kt = 4 * BOLTZMANN * req.temp_max_k
     white_i2 = four_kt / st.rf + (0.0 if math.isinf(st.rsh) else four_kt / st.rsh)
     gsh = 0.0 if math.isinf(st.rsh) else 1.0 / st.rsh
+    # an unknown GBW or A0 gives NaN (the unknown rule decides); the grid runs on a
+    # stand-in so that no NaN frequency reaches the complex arithmetic
+    known = np.isfinite(gbw) & (gbw > 0) & np.isfinite(a0) & (a0 > 0)
+    gbw = np.where(known, gbw, st.band_hz)
+    a0 = np.where(known, a0, 1e6)
     out = [np.empty(0)]
     for i in range(0, len(gbw), CHUNK):
         sl = slice(i, i + CHUNK)
@@ -294,7 +299,7 @@ def output_noise(s: Spec, en: Array, cur: Array, gbw: Array, a0: Array, ct: Arra
                      + (cur[sl, None] ** 2 + white_i2) * np.abs(zf) ** 2)
         total = np.trapezoid(dens, f, axis=1) + dens[:, 0] * f_lo  # DC to f_lo: flat
         out.append(np.sqrt(total))
-    return np.concatenate(out)
+    return np.where(known, np.concatenate(out), np.nan)  # type: ignore[no-any-return]
 
 
 def part_noise(p: Parts, s: Spec) -> Array:

@@ -32,6 +32,17 @@ STAGES: list[dict[str, str]] = [
      "load": "10k", "offset-max": "20mV"},
     {"tolerance": "0", "topology": "difference", "gain": "2", "vin": "1V", "freq": "1kHz", "rails": "±15",
      "load": "5k", "noise-max": "1mV"},
+    # the stage types added later: a filter, a transimpedance stage, a level shift and an
+    # AC-coupled stage (their own checks read their own fields)
+    {"tolerance": "0", "topology": "vcvs-lowpass", "f0": "1kHz", "vin": "1V",
+     "rails": "±15", "load": "10k", "noise-max": "1mV"},
+    {"tolerance": "0", "topology": "transimpedance", "iin": "10uA", "cdet": "20pF",
+     "zt": "100k", "f3db": "100kHz", "rails": "±12", "load": "10k", "noise-max": "1mV"},
+    {"tolerance": "0", "vin-range": "0..80mV", "vout-range": "0.25..4.75V", "freq": "1kHz",
+     "rails": "+5/0", "load": "10k"},
+    {"tolerance": "0", "topology": "non-inverting", "gain": "10", "vin": "0.1V",
+     "freq": "20kHz", "rails": "+5/0", "coupling": "ac", "fmin": "20Hz", "noise-max": "1mV",
+     "offset-max": "50mV"},
 ]
 
 
@@ -51,7 +62,8 @@ def roomy(s: Spec) -> dict[str, float]:
             "cin_cm_f": 1e-15}
 
 
-@pytest.mark.parametrize("options", STAGES, ids=lambda o: o["topology"])
+@pytest.mark.parametrize("options", STAGES,
+                         ids=lambda o: o.get("topology", "level-shift") + o.get("coupling", ""))
 def test_a_blank_needed_field_is_never_accepted(options: dict[str, str]) -> None:
     req = requirement_from(options)
     s = minimum_specs(req)
